@@ -1,0 +1,85 @@
+"""Explicit time marching of an FR operator: the time-step rule and the loop core.
+
+The driver (solver/run.py) owns output and monitors; this module only knows
+how large a step may be and how to take it.
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from .stability import stable_cfl
+from .timeschemes import TIME_SCHEMES
+
+__all__ = ["ExplicitStepper"]
+
+
+class ExplicitStepper:
+    """Advance ``dU/dt = R(U)`` with an explicit RK scheme.
+
+    Parameters
+    ----------
+    op : FROperator
+    scheme : str
+        Name in ``TIME_SCHEMES``.
+    cfl : float, optional
+        Fraction (0, 1] of the scheme's stable limit for the operator's
+        degree and correction function.
+    dt : float, optional
+        Fixed step instead of ``cfl``.
+
+    Notes
+    -----
+    ``dt = cfl * CFL_max(p, c, scheme) * min_points 2 / (lambda_r + lambda_s)``
+    where ``CFL_max`` is the 1D von Neumann limit of the FR advection operator
+    with upwind fluxes (solver.stability) and ``lambda_r, lambda_s`` are the
+    convective spectral radii along the reference directions
+    (``FROperator.wave_speed_limit``).
+    """
+
+    def __init__(self, op, scheme: str = "ssp-rk33", cfl: float | None = 0.9, dt: float | None = None):
+        self.op = op
+        self.scheme = TIME_SCHEMES[scheme].obj
+        self.scheme_name = scheme
+        if dt is None and cfl is None:
+            raise ValueError("give either a CFL fraction or a fixed time step")
+        self.fixed_dt = dt
+        self.cfl = cfl
+        b = op.basis
+        self.cfl_max = stable_cfl(b.p, b.c, scheme, b.points)
+        self.work = None
+
+    def stable_dt(self, U: np.ndarray) -> float:
+        """Time step from the CFL rule (or the fixed step)."""
+        if self.fixed_dt is not None:
+            return float(self.fixed_dt)
+        return self.cfl * self.cfl_max * self.op.wave_speed_limit(U)
+
+    def step(self, U: np.ndarray, t: float, dt: float) -> None:
+        """One step in place."""
+        if self.work is None:
+            self.work = self.scheme.allocate(U)
+        self.scheme.step(self.op.rhs, t, U, dt, self.work)
+
+    def advance(self, U: np.ndarray, t: float, t_end: float, dt_every: int = 10, max_steps: int | None = None):
+        """March ``U`` in place from ``t`` to ``t_end`` (the last step lands exactly).
+
+        Returns
+        -------
+        t : float, steps : int
+        """
+        steps = 0
+        dt = self.stable_dt(U)
+        while t < t_end * (1 - 1e-14) - 1e-300:
+            if steps and steps % dt_every == 0:
+                dt = self.stable_dt(U)
+            h = min(dt, t_end - t)
+            self.step(U, t, h)
+            t += h
+            steps += 1
+            if max_steps is not None and steps >= max_steps:
+                break
+            if not math.isfinite(float(U[0, 0, 0, 0])):
+                raise FloatingPointError(f"solution is not finite at t = {t:.6g} after {steps} steps")
+        return t, steps
