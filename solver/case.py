@@ -207,13 +207,13 @@ SCHEMA: dict[str, dict[str, Key]] = {
     "initial": {
         "kind": Key("choice", "uniform", "initial state: the free stream, or free stream plus a vortex",
                     choices=("uniform", "vortex")),
-        "strength": _num(5.0, "vortex: strength (beta, in units of the free-stream speed)"),
+        "strength": _num(5.0, "vortex: strength beta of the isentropic vortex (Yee, Sandham & Djomehri 1999)"),
         "radius": _num(1.0, "vortex: radius (mesh units)", lo=0.0, lo_open=True),
         "center": Key("vector", [0.0, 0.0], "vortex: centre (x, y)", length=2),
     },
     "output": {
         "directory": Key("string", None, "run folder, relative to the case file's folder; "
-                                         "default runs/<case file stem>"),
+                                         "default `runs/<case file stem>`"),
         "snapshot_every": _num(0.0, "simulation time between snapshots; 0: only the final state", lo=0.0),
         "history_every": _int(1, "steps between history records", 1),
     },
@@ -406,7 +406,24 @@ def annotation_text(ann) -> str:
 
 
 def _plural(ann) -> str:
-    return {int: "integers", float: "numbers", bool: "booleans", str: "strings"}.get(ann, annotation_text(ann))
+    named = {int: "integers", float: "numbers", bool: "booleans", str: "strings"}
+    if ann in named:
+        return named[ann]
+    t = annotation_text(ann)
+    return "arrays" + t[len("an array"):] if t.startswith("an array") else t
+
+
+def toml_literal(v) -> str:
+    """A Python default written the way a case file spells it (``true``, ``"0012"``, ``[0.0, 1.0]``)."""
+    if isinstance(v, bool):
+        return "true" if v else "false"
+    if isinstance(v, str):
+        return '"' + v.replace("\\", "\\\\").replace('"', '\\"') + '"'
+    if isinstance(v, (list, tuple)):
+        return "[" + ", ".join(toml_literal(x) for x in v) + "]"
+    if isinstance(v, float):
+        return repr(v)
+    return str(v)
 
 
 def conform(value, ann):
@@ -478,6 +495,14 @@ def generator_parameters(fn) -> dict[str, inspect.Parameter]:
     return out
 
 
+def is_file_parameter(name: str) -> bool:
+    """Generator parameters named ``path``, ``file``, ``*_path`` or ``*_file`` are file names.
+
+    In a case file they are relative to the case file's folder and must exist.
+    """
+    return name in ("path", "file") or name.endswith(("_path", "_file"))
+
+
 def _mesh_spec(ctx: _Ctx, table: dict, base: Path) -> MeshSpec:
     has_gen, has_file = "generator" in table, "file" in table
     if has_gen == has_file:
@@ -509,6 +534,11 @@ def _mesh_spec(ctx: _Ctx, table: dict, base: Path) -> MeshSpec:
         if not ok:
             raise ctx.err("mesh", f"{key} must be {annotation_text(p.annotation)}, got {table[key]!r} "
                                   f"(generator '{gname}')")
+        if is_file_parameter(key) and isinstance(conv, str) and conv:
+            f = (base / conv).resolve()
+            if not f.is_file():
+                raise ctx.err("mesh", f"{key}: file '{f}' not found (generator '{gname}')")
+            conv = str(f)
         given[key] = conv
     return MeshSpec(generator=gname, params=given)
 
@@ -873,11 +903,7 @@ def _default_text(k: Key) -> str:
         return "required"
     if k.default is None:
         return "—"
-    if isinstance(k.default, str):
-        return f'`"{k.default}"`'
-    if isinstance(k.default, list):
-        return "`[" + ", ".join(f"{x:g}" for x in k.default) + "]`"
-    return f"`{k.default:g}`" if isinstance(k.default, float) else f"`{k.default}`"
+    return f"`{toml_literal(k.default)}`"
 
 
 def _valid_names(which: str) -> str:
@@ -887,7 +913,7 @@ def _valid_names(which: str) -> str:
         return ""
 
 
-def case_reference_markdown(with_registries: bool = True) -> str:
+def case_reference_markdown(with_registries: bool = True, heading: str = "###") -> str:
     """Markdown reference of every section and key, generated from :data:`SCHEMA`.
 
     With ``with_registries`` the valid names of each registry (point sets,
@@ -896,7 +922,8 @@ def case_reference_markdown(with_registries: bool = True) -> str:
     """
     out = []
     for section, keys in SCHEMA.items():
-        out.append(f"### `[{section}]`\n\n{SECTION_HELP[section]}.\n")
+        text = SECTION_HELP[section]
+        out.append(f"{heading} `[{section}]`\n\n{text[0].upper()}{text[1:]}.\n")
         if keys:
             out.append("| key | accepts | default | meaning |\n|---|---|---|---|")
             for name, k in keys.items():
@@ -916,7 +943,7 @@ def case_reference_markdown(with_registries: bool = True) -> str:
                 params = generator_parameters(generator_function(g))
                 out.append(f"Generator `{g}`:\n\n| key | accepts | default |\n|---|---|---|")
                 for pn, p in params.items():
-                    d = "required" if p.default is inspect.Parameter.empty else f"`{p.default!r}`"
+                    d = "required" if p.default is inspect.Parameter.empty else f"`{toml_literal(p.default)}`"
                     out.append(f"| `{pn}` | {annotation_text(p.annotation)} | {d} |")
                 out.append("")
         if section == "boundaries" and with_registries:
@@ -930,5 +957,5 @@ def case_reference_markdown(with_registries: bool = True) -> str:
                     ps = ", ".join(f"`{p}`" + ("" if e.defaults.get(p) is None else f" = {e.defaults[p]:g}")
                                    for p in e.params) or "none"
                     out.append(f"| `{e.name}` | {ps} | {e.doc} |")
-                out.append("\nA parameter without a value defaults to the free-stream value.\n")
+                out.append("\nA parameter without a default takes the free-stream value.\n")
     return "\n".join(out)

@@ -48,6 +48,7 @@ class Metrics:
     nrm : (ne, 4, n, 2) outward unit normals at the flux points
     mag : (ne, 4, n) length element (norm of the outward scaled normal)
     xyf : (ne, 4, n, 2) flux-point coordinates
+    Jf : (ne, 4, n) Jacobian at the flux points
     geom : (ne, m+1, m+1, 2) geometry actually used (degree min(q, p))
     """
 
@@ -59,6 +60,7 @@ class Metrics:
     nrm: np.ndarray
     mag: np.ndarray
     xyf: np.ndarray
+    Jf: np.ndarray
     geom: np.ndarray
 
 
@@ -121,4 +123,5 @@ def compute_metrics(mesh, x: np.ndarray, name: str | None = None) -> Metrics:
     mag = np.linalg.norm(nS, axis=-1)
     nrm = nS / mag[..., None]
     return Metrics(xy=xy, J=J, invJ=1.0 / J, Mr=np.ascontiguousarray(Mr), Ms=np.ascontiguousarray(Ms),
-                   nrm=np.ascontiguousarray(nrm), mag=np.ascontiguousarray(mag), xyf=xyf, geom=geom)
+                   nrm=np.ascontiguousarray(nrm), mag=np.ascontiguousarray(mag), xyf=xyf,
+                   Jf=np.ascontiguousarray(Jf), geom=geom)

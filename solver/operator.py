@@ -5,11 +5,13 @@ once here; the arithmetic is in :mod:`solver.kernels`.
 """
 from __future__ import annotations
 
+import numba
 import numpy as np
 
 from .boundaries import NPARAM, boundary_parameters
 from .fluxes import INTERFACE_FLUXES
 from .kernels import fr_inviscid as _k
+from .kernels import fr_viscous as _kv
 from .metrics import compute_metrics
 
 __all__ = ["FROperator"]
@@ -32,6 +34,14 @@ class FROperator:
         ``tag -> (condition name, parameter dict)``; every mesh tag needs one.
     ref : dict
         Free-stream state (rho, u, v, p, gamma) used by the boundary defaults.
+    viscosity : dict, optional
+        Navier-Stokes terms (BR2): ``mu`` (free-stream dynamic viscosity in our
+        units, 1/Re), ``prandtl``, ``law`` ("constant" or "sutherland"),
+        ``s_ratio`` (Sutherland constant / free-stream temperature),
+        ``penalty`` (BR2 eta, default 5 > 4 faces). None: Euler.
+    sources : list, optional
+        Objects with ``apply(t, U, R)`` that add a source term to the residual
+        in place (e.g. an absorbing sponge); called after the flux terms.
 
     Attributes
     ----------
@@ -41,7 +51,8 @@ class FROperator:
     """
 
     def __init__(self, mesh, basis, gamma: float = 1.4, flux: str = "roe", flux_params: dict | None = None,
-                 boundaries: dict | None = None, ref: dict | None = None):
+                 boundaries: dict | None = None, ref: dict | None = None, viscosity: dict | None = None,
+                 sources: list | None = None):
         self.mesh = mesh
         self.basis = basis
         self.gamma = float(gamma)
@@ -85,7 +96,42 @@ class FROperator:
         self._Lf = np.ascontiguousarray(basis.Lf)
         self._dgR = np.ascontiguousarray(basis.dgR)
         self.nchunk = _k._nchunks(ne)
+        self.sources = list(sources or [])
         self.n_rhs = 0
+        self._setup_viscous(viscosity)
+
+    def _setup_viscous(self, viscosity: dict | None) -> None:
+        self.viscous = viscosity is not None
+        ne, n = self.shape[0], self.n
+        if not self.viscous:
+            self.Fvt = self.Gvt = np.zeros((1, 1, 1, 4))
+            return
+        from .corrections import vcjh_right
+
+        v = dict(viscosity)
+        laws = {"constant": _kv.CONSTANT, "sutherland": _kv.SUTHERLAND}
+        law = v.get("law", "constant")
+        if law not in laws:
+            raise ValueError(f"unknown viscosity law '{law}'; valid: {', '.join(laws)}")
+        self.law = laws[law]
+        self.mu = float(v["mu"])
+        self.prandtl = float(v.get("prandtl", 0.72))
+        self.s_ratio = float(v.get("s_ratio", 110.4 / 288.15))
+        self.penalty = float(v.get("penalty", 5.0))
+        if self.mu <= 0 or self.prandtl <= 0 or self.penalty <= 0:
+            raise ValueError(f"viscosity, Prandtl number and BR2 penalty must be positive, got "
+                             f"{self.mu}, {self.prandtl}, {self.penalty}")
+        ref = self.ref
+        self.e_inf = ref["p"] / ((self.gamma - 1.0) * ref["rho"])
+        self.gR1 = float(vcjh_right(self.p, self.basis.c).deriv()(1.0))
+        self.dU = np.zeros((ne, 4, n, 4))
+        self.Fvf = np.zeros((ne, 4, n, 4))
+        self.Fvt = np.zeros(self.shape)
+        self.Gvt = np.zeros(self.shape)
+        self.adiab = np.zeros((ne, 4), dtype=np.int64)
+        self.isbnd = np.zeros((ne, 4), dtype=np.int64)
+        self.isbnd[self.bfaces[:, 0], self.bfaces[:, 1]] = 1
+        self._nS = np.ascontiguousarray(self.metrics.nrm * self.metrics.mag[..., None])
 
     # ------------------------------------------------------------------ residual
     @property
@@ -93,16 +139,40 @@ class FROperator:
         """Degrees of freedom: solution points x 4 conserved variables."""
         return int(np.prod(self.shape))
 
+    #: below this many elements the kernels run on one thread: thread start-up
+    #: costs more than the work (measured: 70 us vs 250 us per RHS for 16 elements)
+    SERIAL_BELOW = 200
+
     def rhs(self, t: float, U: np.ndarray, out: np.ndarray) -> np.ndarray:
         """Write ``dU/dt`` into ``out`` (same shape as ``U``) and return it."""
+        if self.shape[0] < self.SERIAL_BELOW and numba.get_num_threads() > 1:
+            nt = numba.get_num_threads()
+            numba.set_num_threads(1)
+            try:
+                return self._rhs(t, U, out)
+            finally:
+                numba.set_num_threads(nt)
+        return self._rhs(t, U, out)
+
+    def _rhs(self, t: float, U: np.ndarray, out: np.ndarray) -> np.ndarray:
         m = self.metrics
         _k.interp_to_faces(U, self._Lf, self.Uf)
         _k.interior_face_flux(self.Uf, self.ifaces, m.nrm, m.mag, self.flux_code, self.gamma, self.efix, self.Fc)
         if len(self.bfaces):
             _k.boundary_face_flux(self.Uf, self.bfaces, self.bcode, self.bprm, m.nrm, m.mag, self.flux_code,
                                   self.gamma, self.efix, self.Fc, self.Ub)
-        _k.inviscid_residual(U, self.Fc, m.Mr, m.Ms, m.invJ, self._D, self._Lf, self._dgR, self.gamma,
-                             self.nchunk, out)
+        if self.viscous:
+            _kv.common_solution(self.Uf, self.ifaces, self.bfaces, self.bcode, self.bprm, m.nrm, self.gamma,
+                                self.dU, self.adiab)
+            _kv.viscous_fluxes(U, self.Uf, self.dU, self.adiab, self.isbnd, m.Mr, m.Ms, m.invJ, self._nS, m.Jf,
+                               self._D, self._Lf, self._dgR, self.gR1, self.penalty, self.gamma, self.prandtl,
+                               self.law, self.mu, self.e_inf, self.s_ratio, self.nchunk, self.Fvt, self.Gvt,
+                               self.Fvf)
+            _kv.subtract_common_viscous(self.Fvf, self.ifaces, self.bfaces, self.Fc)
+        _k.flux_residual(U, self.Fc, m.Mr, m.Ms, m.invJ, self._D, self._Lf, self._dgR, self.gamma,
+                         self.nchunk, self.viscous, self.Fvt, self.Gvt, out)
+        for src in self.sources:
+            src.apply(t, U, out)
         self.n_rhs += 1
         return out
 
@@ -116,22 +186,42 @@ class FROperator:
         w = self.basis.w
         return np.einsum("i,j,eij,eijv->v", w, w, self.metrics.J, U)
 
-    def wave_speed_limit(self, U: np.ndarray) -> float:
-        """Largest ``dt`` at unit CFL: ``min 2 / (lambda_r + lambda_s)`` over solution points.
+    def spectral_radii(self, U: np.ndarray):
+        """Convective and viscous spectral-radius estimates at the solution points.
 
-        Notes
-        -----
-        ``lambda_r = (|u . J grad r| + a |J grad r|) / J`` and likewise for ``s``:
-        the reference element has width 2, so a 1D element of width ``h`` gives
-        ``dt = CFL h / (|u| + a)``; the two directions are added, which is the
-        usual conservative choice for tensor-product elements.
+        Returns
+        -------
+        lam_c : (ne, n, n) array
+            ``lambda_r + lambda_s`` with ``lambda_r = (|u . J grad r| + a |J grad r|) / J``
+            (and likewise ``s``): the reference element has width 2, so a 1D
+            element of width ``h`` gives ``2 / lambda = h / (|u| + a)``.  The two
+            directions are added, the usual conservative choice for tensor elements.
+        lam_v : (ne, n, n) array or None
+            ``K(p) nu_eff (|grad r|^2 + |grad s|^2) / 4`` with ``K(p)`` the
+            spectral radius of the 1D BR2-FR diffusion operator for unit
+            viscosity and element width (solver.stability.diffusion_radius) and
+            ``nu_eff = max(4/3, gamma/Pr) mu / rho``.
         """
         m = self.metrics
         r = U[..., 0]
         u = U[..., 1] / r
         v = U[..., 2] / r
-        p = (self.gamma - 1.0) * (U[..., 3] - 0.5 * r * (u * u + v * v))
+        e = U[..., 3] / r - 0.5 * (u * u + v * v)
+        p = (self.gamma - 1.0) * r * e
         a = np.sqrt(np.maximum(self.gamma * p / r, 0.0))
-        lr = (np.abs(u * m.Mr[..., 0] + v * m.Mr[..., 1]) + a * np.hypot(m.Mr[..., 0], m.Mr[..., 1])) * m.invJ
-        ls = (np.abs(u * m.Ms[..., 0] + v * m.Ms[..., 1]) + a * np.hypot(m.Ms[..., 0], m.Ms[..., 1])) * m.invJ
-        return float(2.0 / np.max(lr + ls))
+        gr2 = (m.Mr[..., 0] ** 2 + m.Mr[..., 1] ** 2)
+        gs2 = (m.Ms[..., 0] ** 2 + m.Ms[..., 1] ** 2)
+        lr = (np.abs(u * m.Mr[..., 0] + v * m.Mr[..., 1]) + a * np.sqrt(gr2)) * m.invJ
+        ls = (np.abs(u * m.Ms[..., 0] + v * m.Ms[..., 1]) + a * np.sqrt(gs2)) * m.invJ
+        if not self.viscous:
+            return lr + ls, None
+        from .stability import diffusion_radius
+
+        K = diffusion_radius(self.p, self.basis.c, self.basis.points, self.penalty)
+        mu = self.mu
+        if self.law == _kv.SUTHERLAND:
+            T = e / self.e_inf
+            mu = self.mu * T ** 1.5 * (1.0 + self.s_ratio) / (T + self.s_ratio)
+        nu = max(4.0 / 3.0, self.gamma / self.prandtl) * mu / r
+        lv = 0.25 * K * nu * (gr2 + gs2) * m.invJ ** 2
+        return lr + ls, lv

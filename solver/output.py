@@ -15,14 +15,13 @@ Layout (format ``quadfr-snapshot``, version 1)::
     /solution               (ne, n, n, 4) float64   U[e, i, j, v], v = rho, rho u, rho v, rho E
     /solution_points        (n,) float64            1D solution points on [-1, 1]
     /case                   string                  the case file text
-    /mesh                   attrs: name
+    /mesh                   attrs: name, q      the layout of the native mesh file (meshing/meshfile.py):
     /mesh/geom              (ne, q+1, q+1, 2) float64
     /mesh/corners           (ne, 4) int64
     /mesh/vertices          (nv, 2) float64
     /mesh/interior_faces    (nif, 4) int64          eL, fL, eR, fR
     /mesh/boundary/<tag>    (nb, 2) int64           e, f   (one dataset per boundary tag)
-    /mesh/periodic_tags     (k, 2) string           tag_a, tag_b
-    /mesh/periodic_shift    (k, 2) float64          (dx, dy)
+    /mesh/periodic/<k>      (2,) float64            translation (dx, dy); attrs tag_a, tag_b (k = 0, 1, ...)
     /extra/...              optional: attrs (scalars) and datasets (arrays) given by the caller
 """
 from __future__ import annotations
@@ -239,6 +238,7 @@ def _write_body(f, *, U, time, step, degree, points, correction, nodes, mesh, ca
     f.create_dataset("case", data=str(case_text), dtype=h5py.string_dtype())
     m = f.create_group("mesh")
     m.attrs["name"] = str(mesh.name)
+    m.attrs["q"] = int(mesh.q)
     m.create_dataset("geom", data=np.asarray(mesh.geom, dtype=np.float64))
     m.create_dataset("corners", data=np.asarray(mesh.corners, dtype=np.int64))
     m.create_dataset("vertices", data=np.asarray(mesh.vertices, dtype=np.float64))
@@ -246,11 +246,11 @@ def _write_body(f, *, U, time, step, degree, points, correction, nodes, mesh, ca
     b = m.create_group("boundary")
     for tag, faces in mesh.boundary_faces.items():
         b.create_dataset(tag, data=np.asarray(faces, dtype=np.int64).reshape(-1, 2))
-    per = list(mesh.periodic)
-    m.create_dataset("periodic_tags", data=np.array([[str(x), str(y)] for x, y, _ in per], dtype=object)
-                     .reshape(-1, 2), dtype=h5py.string_dtype())
-    m.create_dataset("periodic_shift", data=np.array([list(map(float, v)) for _, _, v in per],
-                                                     dtype=np.float64).reshape(-1, 2))
+    per = m.create_group("periodic")
+    for k, (ta, tb, vec) in enumerate(mesh.periodic):
+        d = per.create_dataset(str(k), data=np.asarray(vec, dtype=np.float64).reshape(2))
+        d.attrs["tag_a"] = str(ta)
+        d.attrs["tag_b"] = str(tb)
     g = f.create_group("extra")
     for k, v in extra.items():
         if isinstance(v, np.ndarray) or isinstance(v, (list, tuple)):
@@ -315,9 +315,14 @@ def read_snapshot(path) -> Snapshot:
         if "mesh/boundary" not in f:
             raise SnapshotError(f"{path}: incomplete snapshot, 'mesh/boundary' is missing")
         boundary = {str(t): np.asarray(d[()], dtype=np.int64) for t, d in f["mesh/boundary"].items()}
-        tags = get("mesh/periodic_tags")
-        shifts = get("mesh/periodic_shift")
-        periodic = [(_plain(a), _plain(b), (float(v[0]), float(v[1]))) for (a, b), v in zip(tags, shifts)]
+        if "mesh/periodic" not in f:
+            raise SnapshotError(f"{path}: incomplete snapshot, 'mesh/periodic' is missing")
+        per = f["mesh/periodic"]
+        periodic = []
+        for k in range(len(per)):
+            d = per[str(k)]
+            v = d[()]
+            periodic.append((_plain(d.attrs["tag_a"]), _plain(d.attrs["tag_b"]), (float(v[0]), float(v[1]))))
         mesh = Mesh(geom=get("mesh/geom"), corners=get("mesh/corners"), vertices=get("mesh/vertices"),
                     interior_faces=get("mesh/interior_faces"), boundary_faces=dict(sorted(boundary.items())),
                     periodic=periodic, name=_plain(f["mesh"].attrs.get("name", "mesh")))

@@ -54,8 +54,11 @@ def build_problem(case) -> Problem:
     s, t = case.scheme, case.time
     basis = make_basis(s.degree, s.points, s.correction, t.scheme)
     bcs = {tag: (spec.type, spec.params) for tag, spec in case.boundaries.items()}
+    visc = None
+    if ref.get("reynolds") is not None:
+        visc = dict(mu=ref["mu"], prandtl=ref["prandtl"], law=ref["viscosity"], s_ratio=ref["sutherland_ratio"])
     try:
-        op = FROperator(mesh, basis, ref["gamma"], flux=s.flux, boundaries=bcs, ref=ref)
+        op = FROperator(mesh, basis, ref["gamma"], flux=s.flux, boundaries=bcs, ref=ref, viscosity=visc)
     except ValueError as exc:
         raise CaseError(f"{case.path.name}: {exc}") from None
     stepper = ExplicitStepper(op, t.scheme, cfl=None if t.dt is not None else t.cfl, dt=t.dt)

@@ -141,3 +141,83 @@ def _stable_cfl(p, c, rk: ExplicitRK, points):
         else:
             hi = mid
     return lo
+
+
+# ---------------------------------------------------------------------------
+# viscous limit: 1D BR2-FR diffusion and the real-axis reach of an RK scheme
+# ---------------------------------------------------------------------------
+def diffusion_matrix(basis: Basis1D, theta, eta: float = 5.0) -> np.ndarray:
+    """Fourier symbol of the 1D BR2-FR diffusion operator, ``du/dt = (nu/h^2) S u``.
+
+    Notes
+    -----
+    With ``xi = 2 (x - x_j)/h`` and ``u*`` the average at each interface, the
+    corrected gradient is ``q = (2/h)[D u + g_L' (u*_L - Lf[0] u) + g_R' (u*_R - Lf[1] u)]``;
+    the common gradient at an interface averages both sides' values
+    ``Lf q^D + eta g_R'(1) (u* - u_f) (2/h) (+-1)`` (BR2 local lifting of that face
+    only), and ``u_t = nu (2/h)[D q + g_L' (q*_L - Lf[0] q) + g_R' (q*_R - Lf[1] q)]``
+    with ``q`` the corrected gradient.  Same construction as
+    solver/kernels/fr_viscous.py, reduced to one dimension.
+    """
+    th = np.atleast_1d(np.asarray(theta, dtype=float))
+    n = basis.x.size
+    D, Lm, Lp = basis.D, basis.Lf[0], basis.Lf[1]
+    gR, gL = basis.dgR, basis.dgL
+    gR1 = float(_gR1(basis.p, basis.c))
+    out = np.empty((th.size, n, n), dtype=complex)
+    I = np.eye(n)
+    for k, t in enumerate(th):
+        ep, em = np.exp(1j * t), np.exp(-1j * t)
+        # interface values as row operators on u_j (neighbours through the Bloch factor)
+        uR_self, uR_nb = Lp, em * 0 + ep * Lm          # right face: own trace, neighbour's left trace
+        uL_self, uL_nb = Lm, em * Lp                   # left face: own trace, neighbour's right trace
+        ustarR = 0.5 * (uR_self + uR_nb)
+        ustarL = 0.5 * (uL_self + uL_nb)
+        # corrected gradient of u_j and its neighbours (in units of 2/h), as matrices on u_j
+        def grad(shift):
+            # gradient operator of element j+shift applied to u_j (Bloch), (n, n)
+            s = np.exp(1j * t * shift)
+            return s * (D + np.outer(gL, ustarL - Lm) + np.outer(gR, ustarR - Lp))
+        q0 = grad(0)
+        Dq = D  # uncorrected derivative, for the face gradients
+        # BR2 face gradients at the right face of j (own side) and the left face of j+1 (neighbour side)
+        liftR_own = eta * gR1 * (ustarR - Lp)            # own side, outward +1
+        liftR_nb = -eta * gR1 * (ustarR - ep * Lm)       # neighbour's side at its left face (outward -1)
+        qR = 0.5 * (Lp @ Dq + liftR_own + ep * (Lm @ Dq) + liftR_nb)
+        liftL_own = -eta * gR1 * (ustarL - Lm)
+        liftL_nb = eta * gR1 * (ustarL - em * Lp)
+        qL = 0.5 * (Lm @ Dq + liftL_own + em * (Lp @ Dq) + liftL_nb)
+        out[k] = 4.0 * (D @ q0 + np.outer(gL, qL - Lm @ q0) + np.outer(gR, qR - Lp @ q0))
+    del I
+    return out if np.ndim(theta) else out[0]
+
+
+def _gR1(p, c):
+    from .corrections import vcjh_right
+    return vcjh_right(p, c).deriv()(1.0)
+
+
+@functools.lru_cache(maxsize=256)
+def diffusion_radius(p: int, c: float, points: str = "gauss-legendre", eta: float = 5.0) -> float:
+    """Largest ``|lambda|`` of :func:`diffusion_matrix` over theta: ``|lambda| <= K nu / h^2``; returns K."""
+    basis = make_basis(int(p), points, float(c))
+    S = diffusion_matrix(basis, np.linspace(0.0, np.pi, 181), eta)
+    return float(np.max(np.abs(np.linalg.eigvals(S))))
+
+
+@functools.lru_cache(maxsize=64)
+def real_axis_reach(scheme) -> float:
+    """Largest ``x`` with ``|R(-y)| <= 1`` for all ``0 <= y <= x`` (the scheme's negative real-axis interval)."""
+    rk = get_scheme(scheme)
+    ys = np.linspace(0.0, 20.0, 20001)
+    ok = np.abs(rk.stability_function(-ys)) <= 1.0 + _TOL
+    bad = np.nonzero(~ok)[0]
+    hi = ys[bad[0]] if bad.size else ys[-1]
+    lo = ys[bad[0] - 1] if bad.size else ys[-1]
+    while hi - lo > 1e-9:
+        mid = 0.5 * (lo + hi)
+        if abs(rk.stability_function(np.array([-mid]))[0]) <= 1.0 + _TOL:
+            lo = mid
+        else:
+            hi = mid
+    return float(lo)

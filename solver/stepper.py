@@ -9,7 +9,7 @@ import math
 
 import numpy as np
 
-from .stability import stable_cfl
+from .stability import real_axis_reach, stable_cfl
 from .timeschemes import TIME_SCHEMES
 
 __all__ = ["ExplicitStepper"]
@@ -31,11 +31,13 @@ class ExplicitStepper:
 
     Notes
     -----
-    ``dt = cfl * CFL_max(p, c, scheme) * min_points 2 / (lambda_r + lambda_s)``
-    where ``CFL_max`` is the 1D von Neumann limit of the FR advection operator
-    with upwind fluxes (solver.stability) and ``lambda_r, lambda_s`` are the
-    convective spectral radii along the reference directions
-    (``FROperator.wave_speed_limit``).
+    At each solution point ``dt_c = CFL_max(p, c, scheme) 2 / (lambda_r + lambda_s)``
+    with ``CFL_max`` the 1D von Neumann limit of the upwind FR advection
+    operator (solver.stability.stable_cfl) and ``lambda_r, lambda_s`` the
+    convective spectral radii along the reference directions; with viscosity
+    ``dt_v = X / lambda_v`` with ``X`` the scheme's reach along the negative
+    real axis and ``lambda_v`` the BR2 diffusion spectral radius
+    (``FROperator.spectral_radii``).  ``dt = cfl * min_points 1 / (1/dt_c + 1/dt_v)``.
     """
 
     def __init__(self, op, scheme: str = "ssp-rk33", cfl: float | None = 0.9, dt: float | None = None):
@@ -48,13 +50,18 @@ class ExplicitStepper:
         self.cfl = cfl
         b = op.basis
         self.cfl_max = stable_cfl(b.p, b.c, scheme, b.points)
+        self.reach = real_axis_reach(scheme)
         self.work = None
 
     def stable_dt(self, U: np.ndarray) -> float:
         """Time step from the CFL rule (or the fixed step)."""
         if self.fixed_dt is not None:
             return float(self.fixed_dt)
-        return self.cfl * self.cfl_max * self.op.wave_speed_limit(U)
+        lc, lv = self.op.spectral_radii(U)
+        inv = lc / (2.0 * self.cfl_max)
+        if lv is not None:
+            inv = inv + lv / self.reach
+        return float(self.cfl / np.max(inv))
 
     def step(self, U: np.ndarray, t: float, dt: float) -> None:
         """One step in place."""

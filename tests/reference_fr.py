@@ -128,3 +128,123 @@ def residual_np(U, metrics, basis, mesh, gamma, flux="rusanov", efix=0.1, ghost=
     div += (np.einsum("eiv,j->eijv", j0, gm) + np.einsum("eiv,j->eijv", j2, g)
             + np.einsum("ejv,i->eijv", j1, g) + np.einsum("ejv,i->eijv", j3, gm))
     return -div / metrics.J[..., None]
+
+
+# ---------------------------------------------------------------------------
+# viscous terms (BR2 in FR form), numpy
+# ---------------------------------------------------------------------------
+def _stress_heat_np(U, gx, gy, gamma, prandtl, mu):
+    """Viscous fluxes Fv, Gv (..., 4) from U (..., 4) and conserved gradients gx, gy (..., 4)."""
+    r = U[..., 0]
+    vel = U[..., 1:3] / r[..., None]
+    Et = U[..., 3] / r
+    dvx = (gx[..., 1:3] - vel * gx[..., :1]) / r[..., None]
+    dvy = (gy[..., 1:3] - vel * gy[..., :1]) / r[..., None]
+    u, v = vel[..., 0], vel[..., 1]
+    ex = (gx[..., 3] - Et * gx[..., 0]) / r - (u * dvx[..., 0] + v * dvx[..., 1])
+    ey = (gy[..., 3] - Et * gy[..., 0]) / r - (u * dvy[..., 0] + v * dvy[..., 1])
+    div = dvx[..., 0] + dvy[..., 1]
+    txx = mu * (2 * dvx[..., 0] - 2 / 3 * div)
+    tyy = mu * (2 * dvy[..., 1] - 2 / 3 * div)
+    txy = mu * (dvy[..., 0] + dvx[..., 1])
+    k = gamma * mu / prandtl
+    qx, qy = -k * ex, -k * ey
+    z = np.zeros_like(r)
+    Fv = np.stack([z, txx, txy, u * txx + v * txy - qx], -1)
+    Gv = np.stack([z, txy, tyy, u * txy + v * tyy - qy], -1)
+    return Fv, Gv
+
+
+def ns_residual_np(U, metrics, basis, mesh, gamma, mu, prandtl, eta, gR1, flux="rusanov", efix=0.1, ghost=None,
+                   bstate=None):
+    """Navier-Stokes FR residual with BR2, numpy, constant viscosity.
+
+    Parameters
+    ----------
+    bstate : callable(e, f, UL (n,4), nrm (n,2)) -> (Ub (n,4), adiabatic bool), optional
+        Viscous boundary state on boundary faces.
+    """
+    D, Lm, Lp, g = basis.D, basis.Lf[0], basis.Lf[1], basis.dgR
+    gm = g[::-1]
+    Mr, Ms, J = metrics.Mr, metrics.Ms, metrics.J
+    nS = metrics.nrm * metrics.mag[..., None]
+    Uf = _face_values(U, Lm, Lp)
+    # common solution jumps
+    dU = np.zeros_like(Uf)
+    adiab = np.zeros(Uf.shape[:2], dtype=bool)
+    isb = np.zeros(Uf.shape[:2], dtype=bool)
+    for eL, fL, eR, fR in mesh.interior_faces:
+        avg = 0.5 * (Uf[eL, fL] + Uf[eR, fR][::-1])
+        dU[eL, fL] = avg - Uf[eL, fL]
+        dU[eR, fR] = avg[::-1] - Uf[eR, fR]
+    for faces in mesh.boundary_faces.values():
+        for e, f in faces:
+            Ub, ad = bstate(e, f, Uf[e, f], metrics.nrm[e, f])
+            dU[e, f] = Ub - Uf[e, f]
+            adiab[e, f] = ad
+            isb[e, f] = True
+    dr = np.einsum("im,emjv->eijv", D, U)
+    ds = np.einsum("jm,eimv->eijv", D, U)
+
+    def phys(a, b):
+        gx = (Mr[..., 0:1] * a + Ms[..., 0:1] * b) / J[..., None]
+        gy = (Mr[..., 1:2] * a + Ms[..., 1:2] * b) / J[..., None]
+        return gx, gy
+
+    gxD, gyD = phys(dr, ds)
+    # face gradients (BR2: uncorrected + eta * own-face lifting)
+    gxf, gyf = _face_values(gxD, Lm, Lp), _face_values(gyD, Lm, Lp)
+    lift = eta * gR1 * dU / metrics.Jf[..., None]
+    gxf = gxf + lift * nS[..., 0:1]
+    gyf = gyf + lift * nS[..., 1:2]
+    Ustate = np.where(isb[..., None, None], Uf + dU, Uf)
+    Fvf_x, Fvf_y = _stress_heat_np(Ustate, gxf, gyf, gamma, prandtl, mu)
+    Fvn = Fvf_x * nS[..., 0:1] + Fvf_y * nS[..., 1:2]
+    # adiabatic: remove the heat-flux part of the energy flux
+    if adiab.any():
+        r = Ustate[..., 0]
+        vel = Ustate[..., 1:3] / r[..., None]
+        Fx2, Fy2 = _stress_heat_np(Ustate, gxf, gyf, gamma, prandtl, mu)
+        tx = Fx2[..., 1] * nS[..., 0] + Fy2[..., 1] * nS[..., 1]
+        ty = Fx2[..., 2] * nS[..., 0] + Fy2[..., 2] * nS[..., 1]
+        work = vel[..., 0] * tx + vel[..., 1] * ty
+        Fvn[..., 3] = np.where(adiab[..., None], work, Fvn[..., 3])
+    # corrected gradient at solution points
+    j0, j1, j2, j3 = dU[:, 0], dU[:, 1], dU[:, 2][:, ::-1], dU[:, 3][:, ::-1]
+    drc = dr + np.einsum("ejv,i->eijv", j1, g) - np.einsum("ejv,i->eijv", j3, gm)
+    dsc = ds + np.einsum("eiv,j->eijv", j2, g) - np.einsum("eiv,j->eijv", j0, gm)
+    gx, gy = phys(drc, dsc)
+    Fv, Gv = _stress_heat_np(U, gx, gy, gamma, prandtl, mu)
+    Fvt = Mr[..., 0:1] * Fv + Mr[..., 1:2] * Gv
+    Gvt = Ms[..., 0:1] * Fv + Ms[..., 1:2] * Gv
+    # common viscous normal flux
+    Fcv = np.zeros_like(Uf)
+    for eL, fL, eR, fR in mesh.interior_faces:
+        c = 0.5 * (Fvn[eL, fL] - Fvn[eR, fR][::-1])
+        Fcv[eL, fL] = c
+        Fcv[eR, fR] = -c[::-1]
+    for faces in mesh.boundary_faces.values():
+        for e, f in faces:
+            Fcv[e, f] = Fvn[e, f]
+    # total: inviscid minus viscous, then the same FR divergence + correction
+    F, G = euler_flux_np(U, gamma)
+    Ft = Mr[..., 0:1] * F + Mr[..., 1:2] * G - Fvt
+    Gt = Ms[..., 0:1] * F + Ms[..., 1:2] * G - Gvt
+    div = np.einsum("im,emjv->eijv", D, Ft) + np.einsum("jm,eimv->eijv", D, Gt)
+    Ftf, Gtf = _face_values(Ft, Lm, Lp), _face_values(Gt, Lm, Lp)
+    loc = np.stack([-Gtf[:, 0], Ftf[:, 1], Gtf[:, 2], -Ftf[:, 3]], axis=1)
+    riem = {"rusanov": rusanov_np, "roe": lambda a, b, c, d: roe_np(a, b, c, d, efix)}[flux]
+    Fc = np.zeros_like(Uf)
+    for eL, fL, eR, fR in mesh.interior_faces:
+        fs = riem(Uf[eL, fL], Uf[eR, fR][::-1], metrics.nrm[eL, fL], gamma) * metrics.mag[eL, fL][:, None]
+        Fc[eL, fL] = fs
+        Fc[eR, fR] = -fs[::-1]
+    for faces in mesh.boundary_faces.values():
+        for e, f in faces:
+            UR = ghost(e, f, Uf[e, f], metrics.nrm[e, f])
+            Fc[e, f] = riem(Uf[e, f], UR, metrics.nrm[e, f], gamma) * metrics.mag[e, f][:, None]
+    jump = Fc - Fcv - loc
+    k0, k1, k2, k3 = jump[:, 0], jump[:, 1], jump[:, 2][:, ::-1], jump[:, 3][:, ::-1]
+    div += (np.einsum("eiv,j->eijv", k0, gm) + np.einsum("eiv,j->eijv", k2, g)
+            + np.einsum("ejv,i->eijv", k1, g) + np.einsum("ejv,i->eijv", k3, gm))
+    return -div / J[..., None]

@@ -122,10 +122,13 @@ def boundary_face_flux(Uf, bfaces, bcode, bprm, nrm, mag, flux_code, gamma, efix
 
 
 @njit(cache=True, parallel=True)
-def inviscid_residual(U, Fc, Mr, Ms, invJ, D, Lf, dgR, gamma, nchunk, R):
+def flux_residual(U, Fc, Mr, Ms, invJ, D, Lf, dgR, gamma, nchunk, viscous, Fvt, Gvt, R):
     """``R = -(1/J) div F`` with FR corrections; see the module docstring.
 
-    Work arrays are allocated once per chunk of elements, not per element.
+    With ``viscous`` true the transformed viscous fluxes ``Fvt, Gvt``
+    (ne, n, n, 4) are subtracted from the inviscid ones (``Fc`` then already
+    holds the total common flux).  Work arrays are allocated once per chunk of
+    elements, not per element.
     """
     ne, n = U.shape[0], U.shape[1]
     per = (ne + nchunk - 1) // nchunk
@@ -161,6 +164,10 @@ def inviscid_residual(U, Fc, Mr, Ms, invJ, D, Lf, dgR, gamma, nchunk, R):
                     Gt[i, j, 1] = ru * ucs + p * b0
                     Gt[i, j, 2] = rv * ucs + p * b1
                     Gt[i, j, 3] = (rE + p) * ucs
+                    if viscous:
+                        for k in range(4):
+                            Ft[i, j, k] -= Fvt[e, i, j, k]
+                            Gt[i, j, k] -= Gvt[e, i, j, k]
             # divergence of the discontinuous flux polynomial
             for i in range(n):
                 for j in range(n):

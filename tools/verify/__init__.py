@@ -1,0 +1,21 @@
+"""Verification checks run by ``quadfr verify NAME``.
+
+:data:`CHECKS` maps a check name to a callable ``check(quick: bool) -> dict``
+that prints its own table and returns a dict with at least ``"passed": bool``
+(plus whatever it measured, written by ``--json``).  Adding a check is one
+entry here.
+"""
+from __future__ import annotations
+
+__all__ = ["CHECKS"]
+
+from .couette import verify_couette
+from .mms import verify_mms
+from .vortex import verify_vortex
+
+#: name -> callable(quick: bool) -> dict with key "passed"
+CHECKS: dict = {
+    "vortex": lambda quick: verify_vortex(quick),
+    "couette": lambda quick: verify_couette(quick),
+    "mms": lambda quick: verify_mms(quick),
+}
