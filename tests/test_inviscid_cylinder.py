@@ -26,9 +26,9 @@ def test_potential_flow_initial_state():
 
 
 def test_quick_orders_curved_and_straight():
-    # curved wall (q = 3): order >= p + 0.5 for p = 2, 3 (the acceptance rule; measured 2.78 and 3.51)
-    # and every run steady; straight-sided wall (q = 1): at least 10x the curved error (measured 290x at p = 2,
-    # divergence at p = 3 on 16 x 8)
+    # curved wall (q = 3): order >= p + 0.5 for p = 2, 3 (the acceptance rule; measured 3.00 and 3.79)
+    # and every run steady; straight-sided wall (q = 1): at least 10x the curved error (measured 300x at p = 2,
+    # divergence at p = 3)
     out = verify_inviscid_cylinder(quick=True, printer=lambda *a: None)
     curved = {p: [r for r in out["rows"] if r["q"] == 3 and r["p"] == p] for p in (1, 2, 3)}
     for p in (2, 3):
