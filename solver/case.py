@@ -1,8 +1,8 @@
 """Case files: one TOML file describes one run.
 
 A case file has the sections ``[gas]``, ``[flow]``, ``[mesh]``, ``[scheme]``,
-``[time]``, ``[boundaries]``, ``[initial]`` and ``[output]`` plus an optional
-top-level ``title``.  :func:`load_case` reads and validates *all* of it before
+``[time]``, ``[boundaries]``, ``[initial]``, ``[output]``, ``[monitor]`` and
+the optional ``[kick]``, plus an optional top-level ``title``.  :func:`load_case` reads and validates *all* of it before
 anything runs or is written; every error is a :class:`CaseError` whose message
 names the file, the section and the key.
 
@@ -113,6 +113,10 @@ class Key:
             return "one of " + ", ".join(f"'{c}'" for c in self.choices)
         if self.kind == "vector":
             return f"an array of {self.length} numbers"
+        if self.kind == "points":
+            return "an array of [x, y] points"
+        if self.kind == "strings":
+            return "an array of names (strings)"
         if self.kind == "bool":
             return "true or false"
         if self.kind == "name":
@@ -150,6 +154,7 @@ REGISTRIES = {
     "correction": ("solver.corrections", "CORRECTIONS"),
     "flux": ("solver.fluxes", "INTERFACE_FLUXES"),
     "time": ("solver.timeschemes", "TIME_SCHEMES"),
+    "stepping": ("solver.dualtime", "TIME_STEPPING"),  # explicit RK names + BDF (dual time) names
     "boundary": ("solver.boundaries", "BOUNDARY_CONDITIONS"),
     "generator": ("meshing.generators", "GENERATORS"),
 }
@@ -195,13 +200,37 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "flux": Key("name", "roe", "interface (Riemann) flux", registry="flux"),
     },
     "time": {
-        "scheme": Key("name", "ssp-rk33", "time integration scheme", registry="time"),
+        "scheme": Key("name", "ssp-rk33", "time integration scheme: explicit RK, or bdf1/bdf2/bdf3 for dual time "
+                                          "stepping (then `dt` is required and [pseudo] sets the inner iteration)",
+                      registry="stepping"),
         "cfl": _num(0.9, "fraction of the scheme's stable time step (ignored when dt is given)", lo=0.0, hi=1.0,
                     lo_open=True),
         "dt": _num(None, "fixed time step (instead of cfl)", lo=0.0, lo_open=True),
         "end": _num(None, "final simulation time (exactly one of end / steps)", lo=0.0, lo_open=True),
         "steps": _int(None, "number of time steps (exactly one of end / steps)", 1),
         "progress_every": _int(100, "steps between progress lines", 1),
+    },
+    "pseudo": {  # inner iteration of dual time stepping (solver/dualtime.py); only with a bdf [time] scheme
+        "smoother": Key("name", "ssp-rk33", "explicit RK scheme of the pseudo-time iteration (on every level)",
+                        registry="time"),
+        "cfl": _num(0.9, "fraction of the smoother's stable local (per element) pseudo-time step", lo=0.0, hi=1.0,
+                    lo_open=True),
+        "tolerance": _num(1e-5, "converged when the RMS unsteady residual (each variable divided by its "
+                                "free-stream value; units 1/time) is at most this", lo=0.0, lo_open=True),
+        "drop": _num(None, "also converged when the residual has fallen by this factor from its value at the "
+                           "start of the step (e.g. 1e-3); absent: tolerance only", lo=0.0, hi=1.0, lo_open=True,
+                     hi_open=True),
+        "min_iterations": _int(1, "fewest inner iterations (RK steps or multigrid cycles) per physical step", 0),
+        "max_iterations": _int(200, "most inner iterations per physical step; a step that reaches it without "
+                                    "converging is kept and reported", 1),
+        "predictor": Key("choice", "linear", "starting guess: previous (U^n) or linear (extrapolated from "
+                                             "U^(n-1) and U^n)", choices=("previous", "linear")),
+        "multigrid": Key("bool", True, "p-multigrid cycles over the degrees p, p-1, ..., coarsest"),
+        "coarsest": _int(1, "lowest degree of the multigrid cycle", 1, 8),
+        "cycle": Key("choice", "v", "multigrid cycle shape: v or w", choices=("v", "w")),
+        "pre_smooth": _int(1, "smoothing sweeps before the coarse-grid correction on each level", 0),
+        "post_smooth": _int(1, "smoothing sweeps after the coarse-grid correction on each level", 0),
+        "coarse_smooth": _int(2, "smoothing sweeps on the coarsest level", 1),
     },
     "boundaries": {},  # mesh tag -> condition; validated against the boundary registry
     "initial": {
@@ -215,7 +244,30 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "directory": Key("string", None, "run folder, relative to the case file's folder; "
                                          "default `runs/<case file stem>`"),
         "snapshot_every": _num(0.0, "simulation time between snapshots; 0: only the final state", lo=0.0),
-        "history_every": _int(1, "steps between history records", 1),
+        "history_every": _int(10, "steps between history records (forces, probes, residuals, bounds)", 1),
+        "history_interval": _num(0.0, "simulation time between history records instead of `history_every`; "
+                                      "0: use `history_every`", lo=0.0),
+        "checkpoint_minutes": _num(10.0, "wall-clock minutes between extra checkpoint snapshots; 0: none",
+                                   lo=0.0),
+    },
+    "monitor": {
+        "walls": Key("strings", None, "wall tags whose forces are recorded; default: every tag with a wall "
+                                      "condition (slip-wall, noslip-wall, isothermal-wall)"),
+        "length": _num(None, "reference length of the force coefficients (mesh units); default: [flow] length",
+                       lo=0.0, lo_open=True),
+        "moment_point": Key("vector", [0.0, 0.0], "point about which the moment is taken (x, y)", length=2),
+        "probes": Key("points", [], "points where rho, u, v, p are recorded (evaluated from the solution "
+                                    "polynomial)"),
+        "average_from": _num(None, "simulation time from which running time averages of rho, u, v, p (and of "
+                                   "their squares) are accumulated and stored in snapshots; absent: none",
+                             lo=0.0),
+    },
+    "kick": {
+        "tags": Key("strings", None, "wall tags that move; default: every noslip-wall and isothermal-wall tag"),
+        "speed": _num(REQUIRED, "peak tangential wall speed of the kick (units of U_inf), added to the "
+                                "condition's own `speed`; positive is clockwise around a body"),
+        "start": _num(0.0, "simulation time at which the kick starts", lo=0.0),
+        "duration": _num(REQUIRED, "length of the kick (simulation time)", lo=0.0, lo_open=True),
     },
 }
 
@@ -231,9 +283,13 @@ SECTION_HELP = {
     "mesh": "exactly one of `generator` (plus that generator's parameters) or `file`",
     "scheme": "spatial discretisation",
     "time": "time integration",
+    "pseudo": "inner (pseudo-time) iteration of dual time stepping; only with a bdf [time] scheme",
     "boundaries": "one entry per mesh boundary tag: `tag = \"type\"` or `tag = { type = \"type\", param = value }`",
     "initial": "initial state",
     "output": "where and how often results are written",
+    "monitor": "what the history records: wall forces, probes, running averages",
+    "kick": "optional: a brief tangential motion of walls that breaks the symmetry of a start (e.g. to trigger "
+            "vortex shedding); the speed follows `speed sin^2(pi (t - start) / duration)` during the kick",
 }
 
 
@@ -250,6 +306,8 @@ SchemeSection = _section_class("scheme")
 TimeSection = _section_class("time")
 InitialSection = _section_class("initial")
 OutputSection = _section_class("output")
+MonitorSection = _section_class("monitor")
+KickSection = _section_class("kick")
 
 
 @dataclass(frozen=True)
@@ -337,6 +395,17 @@ def _check_value(ctx: _Ctx, section: str, key: str, k: Key, v):
         if not isinstance(v, list) or len(v) != k.length or not all(_is_number(x) for x in v):
             raise bad
         return [float(x) for x in v]
+    if k.kind == "points":
+        if not isinstance(v, list) or not all(isinstance(x, list) and len(x) == 2 and all(_is_number(c) for c in x)
+                                              for x in v):
+            raise bad
+        return [[float(c) for c in x] for x in v]
+    if k.kind == "strings":
+        if not isinstance(v, list) or not v or not all(isinstance(x, str) and x for x in v):
+            raise bad
+        if len(set(v)) != len(v):
+            raise ctx.err(section, f"{key} lists a name twice: {v!r}")
+        return list(v)
     if k.kind == "string":
         if not isinstance(v, str) or not v:
             raise bad
@@ -670,8 +739,10 @@ class Case:
     text : str
         Its raw text (stored in every snapshot).
     title : str
-    gas, flow, scheme, time, initial, output : section dataclasses
+    gas, flow, scheme, time, initial, output, monitor : section dataclasses
         Every key of :data:`SCHEMA` with defaults filled in (``None``: not given).
+    kick : section dataclass or None
+        ``None`` when the case has no [kick].
     mesh : MeshSpec
     boundaries : dict tag -> BoundarySpec
     """
@@ -687,6 +758,8 @@ class Case:
     boundaries: dict
     initial: Any
     output: Any
+    monitor: Any = None
+    kick: Any = None
 
     @property
     def name(self) -> str:
@@ -891,8 +964,42 @@ def _build_case(ctx: _Ctx, path: Path, text: str, data: dict) -> Case:
             if k in ini:
                 raise ctx.err("initial", f"{k} applies only to kind = 'vortex' (kind is '{initial.kind}')")
     output = OutputSection(**_section_values(ctx, "output", tables["output"]))
+    monitor = MonitorSection(**_section_values(ctx, "monitor", tables["monitor"]))
+    _check_monitor(ctx, monitor, boundaries)
+    kick = None
+    if "kick" in data:
+        kick = KickSection(**_section_values(ctx, "kick", tables["kick"]))
+        _check_kick(ctx, kick, boundaries)
     return Case(path=path, text=text, title=title, gas=gas, flow=flow, mesh=mesh, scheme=scheme, time=time,
-                boundaries=boundaries, initial=initial, output=output)
+                boundaries=boundaries, initial=initial, output=output, monitor=monitor, kick=kick)
+
+
+#: condition types that carry forces, and those that can slide (take a `speed`)
+_WALL_TYPES = ("slip-wall", "noslip-wall", "isothermal-wall")
+_MOVING_WALL_TYPES = ("noslip-wall", "isothermal-wall")
+
+
+def _check_tag_list(ctx: _Ctx, section: str, key: str, tags, boundaries: dict, types) -> None:
+    for t in tags:
+        if t not in boundaries:
+            raise ctx.err(section, f"{key}: '{t}' is not a tag of [boundaries]{closest(t, list(boundaries))}; "
+                                   f"tags: {', '.join(boundaries) or 'none'}")
+        if boundaries[t].type not in types:
+            raise ctx.err(section, f"{key}: tag '{t}' has condition '{boundaries[t].type}', which is not one of "
+                                   f"{', '.join(types)}")
+
+
+def _check_monitor(ctx: _Ctx, monitor, boundaries: dict) -> None:
+    if monitor.walls is not None:
+        _check_tag_list(ctx, "monitor", "walls", monitor.walls, boundaries, _WALL_TYPES)
+
+
+def _check_kick(ctx: _Ctx, kick, boundaries: dict) -> None:
+    if kick.tags is not None:
+        _check_tag_list(ctx, "kick", "tags", kick.tags, boundaries, _MOVING_WALL_TYPES)
+    elif not any(b.type in _MOVING_WALL_TYPES for b in boundaries.values()):
+        raise ctx.err("kick", f"needs a moving wall, but no tag has one of the conditions "
+                              f"{', '.join(_MOVING_WALL_TYPES)}")
 
 
 # ---------------------------------------------------------------------------

@@ -13,8 +13,24 @@ from .fluxes import INTERFACE_FLUXES
 from .kernels import fr_inviscid as _k
 from .kernels import fr_viscous as _kv
 from .metrics import compute_metrics
+from .registry import Registry
 
-__all__ = ["FROperator"]
+__all__ = ["FROperator", "VISCOUS_SCHEMES", "LDG_DIRECTION"]
+
+#: common values of the viscous terms on interior faces (boundary faces use the BR2 form for both)
+VISCOUS_SCHEMES = Registry("viscous scheme")
+VISCOUS_SCHEMES.register(
+    "ldg", 0, "local DG common values (Cockburn & Shu 1998) in FR form, no interior penalty: one side gives "
+    "the common solution, the other the common viscous flux")
+VISCOUS_SCHEMES.register(
+    "br2", 1, "BR2 (Bassi & Rebay 1997): averaged solution, averaged fluxes with the uncorrected gradient plus "
+    "eta times the face's own lifting; density / pressure one order short when viscous forces dominate "
+    "at the element scale (see solver/kernels/fr_viscous.py)")
+
+#: LDG switch: on each interior face the side whose outward normal has a positive component along this
+#: direction gives U*; any fixed direction works (the energy identity holds face by face), a tilted one
+#: avoids ties on Cartesian faces and alternates consistently on structured meshes
+LDG_DIRECTION = (0.955336489125606, 0.295520206661340)  # (cos 0.3, sin 0.3)
 
 
 class FROperator:
@@ -38,7 +54,8 @@ class FROperator:
         Navier-Stokes terms (BR2): ``mu`` (free-stream dynamic viscosity in our
         units, 1/Re), ``prandtl``, ``law`` ("constant" or "sutherland"),
         ``s_ratio`` (Sutherland constant / free-stream temperature),
-        ``penalty`` (BR2 eta, default 5 > 4 faces). None: Euler.
+        ``penalty`` (BR2 eta, default 5 > 4 faces; used on boundary faces, and on interior faces with
+        BR2), ``scheme`` (:data:`VISCOUS_SCHEMES`: "ldg", the default, or "br2"). None: Euler.
     sources : list, optional
         Objects with ``apply(t, U, R)`` that add a source term to the residual
         in place (e.g. an absorbing sponge); called after the flux terms.
@@ -121,6 +138,12 @@ class FROperator:
         if self.mu <= 0 or self.prandtl <= 0 or self.penalty <= 0:
             raise ValueError(f"viscosity, Prandtl number and BR2 penalty must be positive, got "
                              f"{self.mu}, {self.prandtl}, {self.penalty}")
+        unknown = sorted(set(v) - {"mu", "prandtl", "law", "s_ratio", "penalty", "scheme"})
+        if unknown:
+            raise ValueError(f"viscosity: unknown key '{unknown[0]}'; valid: mu, prandtl, law, s_ratio, penalty, "
+                             f"scheme")
+        self.viscous_scheme = str(v.get("scheme", "ldg"))
+        ldg = VISCOUS_SCHEMES[self.viscous_scheme].name == "ldg"
         ref = self.ref
         self.e_inf = ref["p"] / ((self.gamma - 1.0) * ref["rho"])
         self.gR1 = float(vcjh_right(self.p, self.basis.c).deriv()(1.0))
@@ -129,9 +152,30 @@ class FROperator:
         self.Fvt = np.zeros(self.shape)
         self.Gvt = np.zeros(self.shape)
         self.adiab = np.zeros((ne, 4), dtype=np.int64)
-        self.isbnd = np.zeros((ne, 4), dtype=np.int64)
-        self.isbnd[self.bfaces[:, 0], self.bfaces[:, 1]] = 1
+        # interior-face rule and the role of every element face (codes of solver.kernels.fr_viscous)
+        f = self.ifaces
+        if ldg:
+            # outward normal of the left element summed over the face points: one decision per face
+            nL = self.metrics.nrm[f[:, 0], f[:, 1]].sum(axis=1)
+            left_gives = nL @ np.asarray(LDG_DIRECTION) > 0.0
+            self.fside = np.where(left_gives, _kv.SIDE_LEFT, _kv.SIDE_RIGHT).astype(np.int64)
+        else:
+            self.fside = np.full(len(f), _kv.SIDE_AVERAGE, dtype=np.int64)
+        self.role = np.full((ne, 4), _kv.FACE_BR2, dtype=np.int64)
+        if ldg:
+            lg = self.fside == _kv.SIDE_LEFT
+            self.role[f[:, 0], f[:, 1]] = np.where(lg, _kv.FACE_LDG_TRACE, _kv.FACE_LDG_FLUX)
+            self.role[f[:, 2], f[:, 3]] = np.where(lg, _kv.FACE_LDG_FLUX, _kv.FACE_LDG_TRACE)
+        self.role[self.bfaces[:, 0], self.bfaces[:, 1]] = _kv.FACE_BOUNDARY
         self._nS = np.ascontiguousarray(self.metrics.nrm * self.metrics.mag[..., None])
+        # 1D diffusion radius per element: elements with a boundary face see the BR2-form boundary penalty
+        from .stability import diffusion_radius
+
+        b = self.basis
+        k_in = diffusion_radius(self.p, b.c, b.points, self.penalty, self.viscous_scheme)
+        k_bd = diffusion_radius(self.p, b.c, b.points, self.penalty, self.viscous_scheme, boundary=True)
+        self._Kv = np.full(ne, k_in)
+        self._Kv[self.bfaces[:, 0]] = k_bd
 
     # ------------------------------------------------------------------ residual
     @property
@@ -162,13 +206,13 @@ class FROperator:
             _k.boundary_face_flux(self.Uf, self.bfaces, self.bcode, self.bprm, m.nrm, m.mag, self.flux_code,
                                   self.gamma, self.efix, self.Fc, self.Ub)
         if self.viscous:
-            _kv.common_solution(self.Uf, self.ifaces, self.bfaces, self.bcode, self.bprm, m.nrm, self.gamma,
-                                self.dU, self.adiab)
-            _kv.viscous_fluxes(U, self.Uf, self.dU, self.adiab, self.isbnd, m.Mr, m.Ms, m.invJ, self._nS, m.Jf,
+            _kv.common_solution(self.Uf, self.ifaces, self.fside, self.bfaces, self.bcode, self.bprm, m.nrm,
+                                self.gamma, self.dU, self.adiab)
+            _kv.viscous_fluxes(U, self.Uf, self.dU, self.adiab, self.role, m.Mr, m.Ms, m.invJ, self._nS, m.Jf,
                                self._D, self._Lf, self._dgR, self.gR1, self.penalty, self.gamma, self.prandtl,
                                self.law, self.mu, self.e_inf, self.s_ratio, self.nchunk, self.Fvt, self.Gvt,
                                self.Fvf)
-            _kv.subtract_common_viscous(self.Fvf, self.ifaces, self.bfaces, self.Fc)
+            _kv.subtract_common_viscous(self.Fvf, self.ifaces, self.fside, self.bfaces, self.Fc)
         _k.flux_residual(U, self.Fc, m.Mr, m.Ms, m.invJ, self._D, self._Lf, self._dgR, self.gamma,
                          self.nchunk, self.viscous, self.Fvt, self.Gvt, out)
         for src in self.sources:
@@ -198,8 +242,10 @@ class FROperator:
             directions are added, the usual conservative choice for tensor elements.
         lam_v : (ne, n, n) array or None
             ``K(p) nu_eff (|grad r|^2 + |grad s|^2) / 4`` with ``K(p)`` the
-            spectral radius of the 1D BR2-FR diffusion operator for unit
-            viscosity and element width (solver.stability.diffusion_radius) and
+            spectral radius of the 1D FR diffusion operator of the viscous
+            scheme for unit viscosity and element width
+            (solver.stability.diffusion_radius; on elements with a boundary face
+            the bound that includes the BR2-form boundary penalty) and
             ``nu_eff = max(4/3, gamma/Pr) mu / rho``.
         """
         m = self.metrics
@@ -215,9 +261,7 @@ class FROperator:
         ls = (np.abs(u * m.Ms[..., 0] + v * m.Ms[..., 1]) + a * np.sqrt(gs2)) * m.invJ
         if not self.viscous:
             return lr + ls, None
-        from .stability import diffusion_radius
-
-        K = diffusion_radius(self.p, self.basis.c, self.basis.points, self.penalty)
+        K = self._Kv[:, None, None]
         mu = self.mu
         if self.law == _kv.SUTHERLAND:
             T = e / self.e_inf

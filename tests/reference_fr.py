@@ -131,7 +131,7 @@ def residual_np(U, metrics, basis, mesh, gamma, flux="rusanov", efix=0.1, ghost=
 
 
 # ---------------------------------------------------------------------------
-# viscous terms (BR2 in FR form), numpy
+# viscous terms (LDG or BR2 common values in FR form), numpy
 # ---------------------------------------------------------------------------
 def _stress_heat_np(U, gx, gy, gamma, prandtl, mu):
     """Viscous fluxes Fv, Gv (..., 4) from U (..., 4) and conserved gradients gx, gy (..., 4)."""
@@ -156,27 +156,44 @@ def _stress_heat_np(U, gx, gy, gamma, prandtl, mu):
 
 
 def ns_residual_np(U, metrics, basis, mesh, gamma, mu, prandtl, eta, gR1, flux="rusanov", efix=0.1, ghost=None,
-                   bstate=None):
-    """Navier-Stokes FR residual with BR2, numpy, constant viscosity.
+                   bstate=None, scheme="ldg", direction=(np.cos(0.3), np.sin(0.3))):
+    """Navier-Stokes FR residual with LDG or BR2 common values, numpy, constant viscosity.
 
     Parameters
     ----------
     bstate : callable(e, f, UL (n,4), nrm (n,2)) -> (Ub (n,4), adiabatic bool), optional
         Viscous boundary state on boundary faces.
+    scheme : str
+        "ldg": on each interior face the side whose outward normal, summed over
+        the face points, has a positive component along ``direction`` gives the
+        common solution (its trace) and the other side the common viscous flux
+        (from its corrected gradient).  "br2": averaged solution, averaged
+        fluxes from the uncorrected gradient plus eta times the own-face lifting.
+        Boundary faces use the BR2 form for both.
     """
     D, Lm, Lp, g = basis.D, basis.Lf[0], basis.Lf[1], basis.dgR
     gm = g[::-1]
     Mr, Ms, J = metrics.Mr, metrics.Ms, metrics.J
     nS = metrics.nrm * metrics.mag[..., None]
     Uf = _face_values(U, Lm, Lp)
-    # common solution jumps
+    # common solution jumps; ldg_flux[e, f]: this face supplies the LDG common flux
     dU = np.zeros_like(Uf)
     adiab = np.zeros(Uf.shape[:2], dtype=bool)
     isb = np.zeros(Uf.shape[:2], dtype=bool)
+    ldg_flux = np.zeros(Uf.shape[:2], dtype=bool)
     for eL, fL, eR, fR in mesh.interior_faces:
-        avg = 0.5 * (Uf[eL, fL] + Uf[eR, fR][::-1])
-        dU[eL, fL] = avg - Uf[eL, fL]
-        dU[eR, fR] = avg[::-1] - Uf[eR, fR]
+        UL, UR = Uf[eL, fL], Uf[eR, fR][::-1]
+        if scheme == "br2":
+            star = 0.5 * (UL + UR)
+        elif scheme == "ldg":
+            left_gives = metrics.nrm[eL, fL].sum(axis=0) @ np.asarray(direction) > 0
+            star = UL if left_gives else UR
+            ldg_flux[eR, fR] = left_gives
+            ldg_flux[eL, fL] = not left_gives
+        else:
+            raise ValueError(scheme)
+        dU[eL, fL] = star - UL
+        dU[eR, fR] = (star - UR)[::-1]
     for faces in mesh.boundary_faces.values():
         for e, f in faces:
             Ub, ad = bstate(e, f, Uf[e, f], metrics.nrm[e, f])
@@ -192,11 +209,19 @@ def ns_residual_np(U, metrics, basis, mesh, gamma, mu, prandtl, eta, gR1, flux="
         return gx, gy
 
     gxD, gyD = phys(dr, ds)
-    # face gradients (BR2: uncorrected + eta * own-face lifting)
+    # corrected gradient at solution points
+    j0, j1, j2, j3 = dU[:, 0], dU[:, 1], dU[:, 2][:, ::-1], dU[:, 3][:, ::-1]
+    drc = dr + np.einsum("ejv,i->eijv", j1, g) - np.einsum("ejv,i->eijv", j3, gm)
+    dsc = ds + np.einsum("eiv,j->eijv", j2, g) - np.einsum("eiv,j->eijv", j0, gm)
+    gx, gy = phys(drc, dsc)
+    # face gradients: BR2 form (uncorrected + eta * own-face lifting), LDG flux faces: corrected gradient trace
     gxf, gyf = _face_values(gxD, Lm, Lp), _face_values(gyD, Lm, Lp)
     lift = eta * gR1 * dU / metrics.Jf[..., None]
     gxf = gxf + lift * nS[..., 0:1]
     gyf = gyf + lift * nS[..., 1:2]
+    sel = ldg_flux[..., None, None]
+    gxf = np.where(sel, _face_values(gx, Lm, Lp), gxf)
+    gyf = np.where(sel, _face_values(gy, Lm, Lp), gyf)
     Ustate = np.where(isb[..., None, None], Uf + dU, Uf)
     Fvf_x, Fvf_y = _stress_heat_np(Ustate, gxf, gyf, gamma, prandtl, mu)
     Fvn = Fvf_x * nS[..., 0:1] + Fvf_y * nS[..., 1:2]
@@ -209,18 +234,18 @@ def ns_residual_np(U, metrics, basis, mesh, gamma, mu, prandtl, eta, gR1, flux="
         ty = Fx2[..., 2] * nS[..., 0] + Fy2[..., 2] * nS[..., 1]
         work = vel[..., 0] * tx + vel[..., 1] * ty
         Fvn[..., 3] = np.where(adiab[..., None], work, Fvn[..., 3])
-    # corrected gradient at solution points
-    j0, j1, j2, j3 = dU[:, 0], dU[:, 1], dU[:, 2][:, ::-1], dU[:, 3][:, ::-1]
-    drc = dr + np.einsum("ejv,i->eijv", j1, g) - np.einsum("ejv,i->eijv", j3, gm)
-    dsc = ds + np.einsum("eiv,j->eijv", j2, g) - np.einsum("eiv,j->eijv", j0, gm)
-    gx, gy = phys(drc, dsc)
     Fv, Gv = _stress_heat_np(U, gx, gy, gamma, prandtl, mu)
     Fvt = Mr[..., 0:1] * Fv + Mr[..., 1:2] * Gv
     Gvt = Ms[..., 0:1] * Fv + Ms[..., 1:2] * Gv
     # common viscous normal flux
     Fcv = np.zeros_like(Uf)
     for eL, fL, eR, fR in mesh.interior_faces:
-        c = 0.5 * (Fvn[eL, fL] - Fvn[eR, fR][::-1])
+        if scheme == "br2":
+            c = 0.5 * (Fvn[eL, fL] - Fvn[eR, fR][::-1])
+        elif ldg_flux[eL, fL]:
+            c = Fvn[eL, fL]
+        else:
+            c = -Fvn[eR, fR][::-1]
         Fcv[eL, fL] = c
         Fcv[eR, fR] = -c[::-1]
     for faces in mesh.boundary_faces.values():

@@ -2,14 +2,20 @@
 
 Subcommands::
 
-    quadfr solve CASE [--resume]            run a case file
+    quadfr solve CASE [--resume] [--stop-after N]
+                                            run a case file (Ctrl-C writes a checkpoint; exit 130)
     quadfr verify NAME [--quick] [--json F] run a verification check (NAME or 'all')
+    quadfr report RUN_DIR [--from T]        force statistics, Strouhal number, plots and report.md of a run
     quadfr bench [--json F] [--quick]       residual throughput benchmark
     quadfr mesh KIND [--param value ...] -o FILE [--png FILE]
                                             build a mesh with a generator, write the native .h5 file
     quadfr meshcheck FILE [--degree p] [--mach M]
                                             quality table of a mesh file (or of a case's mesh)
     quadfr vtu SNAPSHOT_OR_RUN_DIR [-o FILE] ParaView export
+    quadfr study CASE --degrees 1,2,3 [--meshes 1,2,4 | a.h5,b.h5] [--jobs N] [--tolerance T]
+                                            resolution study: outputs per level, Richardson/GCI, cheapest level
+    quadfr estimate CASE [--degree p] [--span L --span-cells N] [--throughput DOF_PER_S ...]
+                                            DoF, memory, time step, cost here and of the extruded production run
     quadfr cases                            list the bundled case files
 
 User errors (bad case file, bad mesh, missing file, unknown name, invalid
@@ -85,8 +91,8 @@ def cmd_solve(args) -> int:
     case = load_case(args.case)  # validated in full before anything runs; run_case prints case.describe()
     from solver.run import run_case
 
-    result = run_case(case, resume=args.resume)
-    return result if isinstance(result, int) and not isinstance(result, bool) else 0
+    result = run_case(case, resume=args.resume, stop_after=args.stop_after)
+    return 130 if result.get("status") == "interrupted" else 0
 
 
 # ---------------------------------------------------------------------------
@@ -113,6 +119,30 @@ def cmd_verify(args) -> int:
     if args.json:
         _write_json(args.json, results[names[0]] if len(names) == 1 else {"passed": passed, "checks": results})
     return 0 if passed else 1
+
+
+def cmd_report(args) -> int:
+    from tools import report
+
+    return report.main(args)
+
+
+def cmd_study(args) -> int:
+    from tools import study
+
+    return study.main(args)
+
+
+def cmd_estimate(args) -> int:
+    from tools import estimate
+
+    return estimate.main(args)
+
+
+def cmd_bccheck(args) -> int:
+    from tools.bccheck import main as bccheck_main
+
+    return bccheck_main(args)
 
 
 def cmd_bench(args) -> int:
@@ -306,6 +336,8 @@ def build_parser() -> argparse.ArgumentParser:
     s = sub.add_parser("solve", help="run a case file")
     s.add_argument("case", help="case file (.toml)")
     s.add_argument("--resume", action="store_true", help="continue from the latest snapshot of the run folder")
+    s.add_argument("--stop-after", type=int, metavar="N",
+                   help="stop after N steps of this session and write a checkpoint (continue with --resume)")
     s.set_defaults(func=cmd_solve)
 
     s = sub.add_parser("verify", help="run a verification check")
@@ -313,6 +345,20 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("--quick", action="store_true", help="smaller, faster version")
     s.add_argument("--json", metavar="FILE", help="write the results as JSON")
     s.set_defaults(func=cmd_verify)
+
+    s = sub.add_parser("report", help="force statistics, Strouhal number and plots of a run folder")
+    s.add_argument("run_dir", help="run folder (holds history.h5 and the snapshots)")
+    s.add_argument("--from", dest="t_from", type=float, metavar="T",
+                   help="start of the analysis window (default: when the lift cycles have settled)")
+    s.add_argument("--group", default="total", help="force group: total (default) or a wall tag")
+    s.add_argument("--no-plots", action="store_true", help="write no PNG files")
+    s.set_defaults(func=cmd_report)
+
+    s = sub.add_parser("bccheck", help="reflection test of open-boundary setups (pulse and vortex)")
+    s.add_argument("setups", nargs="*", help="setup names (default: all)")
+    s.add_argument("--quick", action="store_true", help="short form (as in CI)")
+    s.add_argument("--json", metavar="FILE", help="write the table as JSON")
+    s.set_defaults(func=cmd_bccheck)
 
     s = sub.add_parser("bench", help="residual throughput benchmark")
     s.add_argument("--json", metavar="FILE", help="write the results as JSON")
@@ -335,6 +381,16 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("path", help="snapshot (.h5) or run folder")
     s.add_argument("-o", "--output", metavar="FILE", help="output .vtu (snapshot) or .pvd (run folder)")
     s.set_defaults(func=cmd_vtu)
+
+    s = sub.add_parser("study", help="resolution study: run a case at several degrees and meshes, tabulate outputs")
+    from tools.study import add_arguments as _study_arguments
+    _study_arguments(s)
+    s.set_defaults(func=cmd_study)
+
+    s = sub.add_parser("estimate", help="DoF, memory, time step and cost of a case and of its production run")
+    from tools.estimate import add_arguments as _estimate_arguments
+    _estimate_arguments(s)
+    s.set_defaults(func=cmd_estimate)
 
     s = sub.add_parser("cases", help="list the bundled case files")
     s.add_argument("--dir", help=argparse.SUPPRESS)

@@ -10,6 +10,8 @@ from __future__ import annotations
 __all__ = ["CHECKS"]
 
 from .couette import verify_couette
+from .cylinder import verify_cylinder
+from .inviscid_cylinder import verify_inviscid_cylinder
 from .mms import verify_mms
 from .vortex import verify_vortex
 
@@ -18,4 +20,7 @@ CHECKS: dict = {
     "vortex": lambda quick: verify_vortex(quick),
     "couette": lambda quick: verify_couette(quick),
     "mms": lambda quick: verify_mms(quick),
+    "inviscid-cylinder": lambda quick: verify_inviscid_cylinder(quick=quick),
+    "cylinder": lambda quick: verify_cylinder(quick=quick),
+    "blasius": lambda quick: __import__("tools.verify.blasius", fromlist=["_"]).verify_blasius(quick=quick),
 }
