@@ -153,6 +153,7 @@ REGISTRIES = {
     "points": ("solver.basis", "POINT_SETS"),
     "correction": ("solver.corrections", "CORRECTIONS"),
     "flux": ("solver.fluxes", "INTERFACE_FLUXES"),
+    "viscous": ("solver.operator", "VISCOUS_SCHEMES"),
     "time": ("solver.timeschemes", "TIME_SCHEMES"),
     "stepping": ("solver.dualtime", "TIME_STEPPING"),  # explicit RK names + BDF (dual time) names
     "boundary": ("solver.boundaries", "BOUNDARY_CONDITIONS"),
@@ -198,6 +199,8 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "correction": Key("name-or-number", "dg", "correction function (name, or a number)",
                           registry="correction"),
         "flux": Key("name", "roe", "interface (Riemann) flux", registry="flux"),
+        "viscous": Key("name", "ldg", "common values of the viscous terms on interior faces (boundary faces "
+                                      "always use the BR2 lifting)", registry="viscous"),
     },
     "time": {
         "scheme": Key("name", "ssp-rk33", "time integration scheme: explicit RK, or bdf1/bdf2/bdf3 for dual time "
@@ -262,6 +265,12 @@ SCHEMA: dict[str, dict[str, Key]] = {
                                    "their squares) are accumulated and stored in snapshots; absent: none",
                              lo=0.0),
     },
+    "sponge": {
+        "tags": Key("strings", REQUIRED, "boundary tags the absorbing zone lies along"),
+        "width": _num(REQUIRED, "zone width (mesh units), measured from those boundaries", lo=0.0, lo_open=True),
+        "strength": _num(5.0, "damping rate sigma at the boundary (1 / time unit)", lo=0.0),
+        "exponent": _num(3.0, "ramp sigma = strength s^exponent, s = 1 - distance / width", lo=1.0),
+    },
     "kick": {
         "tags": Key("strings", None, "wall tags that move; default: every noslip-wall and isothermal-wall tag"),
         "speed": _num(REQUIRED, "peak tangential wall speed of the kick (units of U_inf), added to the "
@@ -288,6 +297,8 @@ SECTION_HELP = {
     "initial": "initial state",
     "output": "where and how often results are written",
     "monitor": "what the history records: wall forces, probes, running averages",
+    "sponge": "optional, repeatable ([[sponge]]): an absorbing zone next to boundaries that damps the solution "
+              "towards the free stream with a smooth ramp",
     "kick": "optional: a brief tangential motion of walls that breaks the symmetry of a start (e.g. to trigger "
             "vortex shedding); the speed follows `speed sin^2(pi (t - start) / duration)` during the kick",
 }
@@ -308,6 +319,7 @@ InitialSection = _section_class("initial")
 OutputSection = _section_class("output")
 MonitorSection = _section_class("monitor")
 KickSection = _section_class("kick")
+SpongeSection = _section_class("sponge")
 
 
 @dataclass(frozen=True)
@@ -760,6 +772,7 @@ class Case:
     output: Any
     monitor: Any = None
     kick: Any = None
+    sponge: Any = None
 
     @property
     def name(self) -> str:
@@ -923,6 +936,12 @@ def _build_case(ctx: _Ctx, path: Path, text: str, data: dict) -> Case:
             sections = ", ".join(SCHEMA)
             raise ctx.err(None, f"unknown section [{key}]{closest(key, _TOP)}; valid sections: {sections} "
                                 "(and a top-level title)")
+        if key == "sponge":
+            if isinstance(v, dict):
+                v = data[key] = [v]
+            if not isinstance(v, list) or not all(isinstance(z, dict) for z in v):
+                raise ctx.err(None, "sponge zones are tables [[sponge]] (tags, width, strength, exponent)")
+            continue
         if key != "title" and not isinstance(v, dict):
             raise ctx.err(None, f"'{key}' must be a section [{key}], got {v!r}")
     title = data.get("title", "")
@@ -970,8 +989,17 @@ def _build_case(ctx: _Ctx, path: Path, text: str, data: dict) -> Case:
     if "kick" in data:
         kick = KickSection(**_section_values(ctx, "kick", tables["kick"]))
         _check_kick(ctx, kick, boundaries)
+    sponge = []
+    for k, zone in enumerate(data.get("sponge", [])):
+        z = SpongeSection(**_section_values(ctx, "sponge", zone))
+        for tag in z.tags:
+            if tag not in boundaries:
+                raise ctx.err("sponge", f"zone {k}: tag '{tag}' has no boundary condition{closest(tag, boundaries)}; "
+                                        f"boundary tags: {', '.join(sorted(boundaries)) or 'none'}")
+        sponge.append(z)
     return Case(path=path, text=text, title=title, gas=gas, flow=flow, mesh=mesh, scheme=scheme, time=time,
-                boundaries=boundaries, initial=initial, output=output, monitor=monitor, kick=kick)
+                boundaries=boundaries, initial=initial, output=output, monitor=monitor, kick=kick,
+                sponge=sponge)
 
 
 #: condition types that carry forces, and those that can slide (take a `speed`)

@@ -75,21 +75,59 @@ def build_problem(case) -> Problem:
     from solver.operator import FROperator
     from solver.stepper import ExplicitStepper
 
+    from solver.dualtime import build_dual_stepper, dual_settings
+
     mesh = case.make_mesh()
     ref = case.reference_state()
     s, t = case.scheme, case.time
-    basis = make_basis(s.degree, s.points, s.correction, t.scheme)
+    dual = dual_settings(case)
+    # the explicit RK scheme that sets c+ and the pseudo-time smoother in dual mode
+    rk = dual["smoother"] if dual else t.scheme
     bcs = {tag: (spec.type, spec.params) for tag, spec in case.boundaries.items()}
     visc = None
     if ref.get("reynolds") is not None:
         visc = dict(mu=ref["mu"], prandtl=ref["prandtl"], law=ref["viscosity"], s_ratio=ref["sutherland_ratio"])
+        if getattr(s, "viscous", None):
+            visc["scheme"] = s.viscous
+
+    def op_factory(p):
+        return FROperator(mesh, make_basis(p, s.points, s.correction, rk), ref["gamma"], flux=s.flux,
+                          boundaries=bcs, ref=ref, viscosity=visc)
+
     try:
-        op = FROperator(mesh, basis, ref["gamma"], flux=s.flux, boundaries=bcs, ref=ref, viscosity=visc)
+        op = op_factory(s.degree)
     except ValueError as exc:
         raise CaseError(f"{case.path.name}: {exc}") from None
-    stepper = ExplicitStepper(op, t.scheme, cfl=None if t.dt is not None else t.cfl, dt=t.dt)
+    sponge = _sponge(case, op, ref)
+    if sponge is not None:
+        op.sources.append(sponge)
+    if dual:
+        stepper = build_dual_stepper(op_factory, dual, op=op)
+        if sponge is not None:
+            for lvl in stepper.levels[1:]:
+                lvl.op.sources.append(_sponge(case, lvl.op, ref))
+    else:
+        stepper = ExplicitStepper(op, t.scheme, cfl=None if t.dt is not None else t.cfl, dt=t.dt)
+        if sponge is not None:
+            stepper.rate_cap = sponge.max_rate
     U0 = _initial_state(case, op, ref)
     return Problem(case, mesh, ref, op, stepper, U0)
+
+
+def _sponge(case, op, ref):
+    """The absorbing sponge of ``[[sponge]]`` zones, or None."""
+    zones = getattr(case, "sponge", None)
+    if not zones:
+        return None
+    from solver.sponge import Sponge
+
+    try:
+        import dataclasses
+
+        return Sponge(op, ref, [dataclasses.asdict(z) for z in zones])
+    except ValueError as exc:
+        from solver.case import CaseError
+        raise CaseError(f"{case.path.name}: [[sponge]] {exc}") from None
 
 
 def _fmt_seconds(s: float) -> str:
@@ -247,6 +285,9 @@ def run_case(case, resume: bool = False, printer=print, stop_after: int | None =
     guard = StateGuard(op)
     hist = HistoryFile(run_dir, monitor.columns, monitor.attrs)
 
+    dual_mode = hasattr(st, "get_state")
+    if dual_mode:
+        st.on_warning = lambda m: (printer("warning: " + m), log.line("warning: " + m))
     every = float(ocfg.snapshot_every or 0.0)
     h_every = int(ocfg.history_every)
     h_interval = float(ocfg.history_interval or 0.0)
@@ -276,6 +317,10 @@ def run_case(case, resume: bool = False, printer=print, stop_after: int | None =
         wall_before = float(ex.get("wall_time", 0.0))
         if avg is not None:
             avg.load(ex, t, str(last))
+        if hasattr(st, "set_state"):
+            if "dual_scheme" not in ex:
+                raise ValueError(f"{last}: no dual-time history in this snapshot (written by an explicit run?)")
+            st.set_state({k[5:]: ex[k] for k in ex if k.startswith("dual_")})
         resumed_from = last
     else:
         _clear_previous_run(run_dir, printer)
@@ -322,6 +367,8 @@ def run_case(case, resume: bool = False, printer=print, stop_after: int | None =
                  "reason": reason}
         if avg is not None:
             extra.update(avg.to_extra())
+        if hasattr(st, "get_state"):
+            extra.update({f"dual_{k}": v for k, v in st.get_state().items()})
         write_snapshot(path, U=Us, time=ts, step=steps, degree=op.p, points=op.basis.points,
                        correction=case.scheme.correction, mesh=prob.mesh, case_text=case.text,
                        reference={k: v for k, v in prob.ref.items() if isinstance(v, (int, float, str, bool))
@@ -373,7 +420,7 @@ def run_case(case, resume: bool = False, printer=print, stop_after: int | None =
                 if t_end is not None:
                     h = min(h, t_end - t)
                 next_out = k_out * every if every > 0 else math.inf
-                if next_out - t < h:
+                if next_out - t < h and not dual_mode:
                     h = next_out - t
                 np.copyto(U_prev, U)
                 t_prev = t
@@ -415,7 +462,12 @@ def run_case(case, resume: bool = False, printer=print, stop_after: int | None =
                     else:
                         frac = (step - step0) / max(n_steps - step0, 1)
                     eta = wall * (1 - frac) / frac if frac > 0 else math.inf
-                    printer(f"t {t:11.5f}  step {step:8d}  dt {h:.3e}  residual {res:.3e}  "
+                    inner = ""
+                    if dual_mode and st.last_stats:
+                        ls = st.last_stats
+                        inner = (f"  inner {ls.get('iterations', 0)} it, res {ls.get('residual', float('nan')):.2e}"
+                                 + ("" if ls.get("converged", True) else " (not converged)"))
+                    printer(f"t {t:11.5f}  step {step:8d}  dt {h:.3e}  residual {res:.3e}{inner}  "
                             f"wall {_fmt_seconds(wall)}  ETA {_fmt_seconds(eta)}")
                     log.progress(step, t, dt=h, residual=res, wall=wall)
                 if every > 0 and t >= k_out * every * (1 - 1e-12):

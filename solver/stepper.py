@@ -36,7 +36,7 @@ class ExplicitStepper:
     operator (solver.stability.stable_cfl) and ``lambda_r, lambda_s`` the
     convective spectral radii along the reference directions; with viscosity
     ``dt_v = X / lambda_v`` with ``X`` the scheme's reach along the negative
-    real axis and ``lambda_v`` the BR2 diffusion spectral radius
+    real axis and ``lambda_v`` the LDG or BR2 diffusion spectral radius
     (``FROperator.spectral_radii``).  ``dt = cfl * min_points 1 / (1/dt_c + 1/dt_v)``.
     """
 
@@ -51,12 +51,21 @@ class ExplicitStepper:
         b = op.basis
         self.cfl_max = stable_cfl(b.p, b.c, scheme, b.points)
         self.reach = real_axis_reach(scheme)
+        #: largest relaxation rate of a source term (e.g. a sponge), or 0
+        self.rate_cap = 0.0
         self.work = None
 
     def stable_dt(self, U: np.ndarray) -> float:
         """Time step from the CFL rule (or the fixed step)."""
         if self.fixed_dt is not None:
             return float(self.fixed_dt)
+        dt = self._flux_dt(U)
+        if self.rate_cap > 0:
+            # a damping source -sigma (U - U_ref) is stable while sigma dt stays inside the real-axis reach
+            dt = min(dt, self.cfl * self.reach / self.rate_cap)
+        return dt
+
+    def _flux_dt(self, U: np.ndarray) -> float:
         lc, lv = self.op.spectral_radii(U)
         inv = lc / (2.0 * self.cfl_max)
         if lv is not None:

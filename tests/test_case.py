@@ -155,7 +155,7 @@ def test_unknown_key_with_suggestion(tmp_path, section, bad, good):
 def test_unknown_key_message_format(tmp_path):
     msg = expect_error(tmp_path, set={"scheme": {"degre": "3"}})
     assert msg == ("case.toml: [scheme] unknown key 'degre' (did you mean 'degree'?); "
-                   "valid keys: degree, points, correction, flux")
+                   "valid keys: degree, points, correction, flux, viscous")
 
 
 def test_unknown_boundary_parameter(tmp_path):
@@ -356,7 +356,7 @@ def test_cli_bad_case_in_process(tmp_path, capsys):
     err = capsys.readouterr().err
     assert rc == 2
     assert err == ("quadfr: error: case.toml: [scheme] unknown key 'degre' (did you mean 'degree'?); "
-                   "valid keys: degree, points, correction, flux\n")
+                   "valid keys: degree, points, correction, flux, viscous\n")
     assert listing(tmp_path) == before
     assert main(["solve", str(tmp_path / "none.toml")]) == 2
     assert "case file not found" in capsys.readouterr().err

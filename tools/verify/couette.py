@@ -65,7 +65,7 @@ def run_couette(p: int, ny: int, T0: float = 1.0, T1: float = 1.1, t_end: float 
     def l2(a):
         return float(math.sqrt(np.einsum("i,j,eij,eij->", w, w, J, a * a) / area))
 
-    # heat flux through the wall at rest: the energy part of the BR2 viscous face flux (velocity 0 there)
+    # heat flux through the wall at rest: the energy part of the viscous wall flux (BR2 lifting; velocity 0 there)
     faces = mesh.boundary_faces["bottom"]
     fv = op.Fvf[faces[:, 0], faces[:, 1], :, 3] / op.metrics.mag[faces[:, 0], faces[:, 1]]
     return dict(p=p, ny=ny, dof=op.ndof, h=1.0 / ny, err_u=l2(u - ue), err_T=l2(T - Te),
@@ -78,7 +78,7 @@ def verify_couette(quick: bool = False, json_path: str | None = None, printer=pr
     meshes = {1: (4, 8), 2: (2, 4), 3: (2, 4)} if quick else {1: (4, 8, 16), 2: (4, 8, 16), 3: (4, 8, 16)}
     printer("compressible Couette flow with viscous heating (White, Viscous Fluid Flow)")
     printer(f"  Mach {MACH}, Re {RE} (wall speed, gap), Pr {PR}, constant viscosity, walls T0 = 1, T1 = 1.1; "
-            "BR2 penalty 5, Roe flux, SSP-RK(5,4), steady state reached by time marching to t = 2.5 (slowest mode decays as exp(-pi^2 nu t))")
+            "LDG interior faces, BR2 lifting (penalty 5) at the walls, Roe flux, SSP-RK(5,4), steady state reached by time marching to t = 2.5 (slowest mode decays as exp(-pi^2 nu t))")
     printer(f"  {'p':>2} {'cells':>5} {'DoF':>6} {'L2 u error':>11} {'order':>6} {'L2 T error':>11} {'order':>6}")
     rows, passed = [], True
     for p, levels in meshes.items():
