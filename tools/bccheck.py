@@ -73,13 +73,13 @@ resolution):
 from __future__ import annotations
 
 import argparse
-import json
 import math
-import os
 import time
 from dataclasses import dataclass, field
 
 import numpy as np
+
+from tools.jsonio import write_json
 
 __all__ = ["SETUPS", "PROBLEMS", "bccheck", "main", "disturbance_energy", "plane_wave_reflection",
            "characteristic_reflection"]
@@ -529,21 +529,8 @@ def bccheck(setups=None, quick: bool = False, json_path: str | None = None, prin
                                t_leave=v["t_leave"], E0=v["E0"], left=v["left"].tolist(), wall=v["wall"])
                           for k, v in refs.items()]}
     if json_path:
-        _write_json(json_path, out)
+        write_json(json_path, out)
     return out
-
-
-def _write_json(path, data) -> None:
-    tmp = f"{path}.tmp"
-    try:
-        with open(tmp, "w", encoding="utf-8") as fh:
-            json.dump(data, fh, indent=2)
-            fh.write("\n")
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.remove(tmp)
-        raise
 
 
 def build_parser() -> argparse.ArgumentParser:

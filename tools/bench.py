@@ -9,7 +9,6 @@ process with an empty numba cache).
 """
 from __future__ import annotations
 
-import json
 import math
 import os
 import platform
@@ -20,7 +19,9 @@ import time
 
 import numpy as np
 
-__all__ = ["main", "measure_rhs"]
+from tools.jsonio import write_json
+
+__all__ = ["main", "measure_rhs", "time_per_call"]
 
 
 def _operator(p: int, nel: int, viscous: bool = False, flux: str = "roe"):
@@ -41,7 +42,27 @@ def _operator(p: int, nel: int, viscous: bool = False, flux: str = "roe"):
     return op, U
 
 
-def _time_calls(fn, min_time=0.5, min_calls=3) -> float:
+def time_per_call(fn, min_time: float = 0.5, min_calls: int = 3) -> float:
+    """Mean wall seconds of one call of ``fn()``.
+
+    ``fn`` is called once untimed (JIT compilation, first-touch memory), then
+    repeatedly until at least ``min_time`` seconds and ``min_calls`` calls
+    have passed, so that short calls are averaged over many repeats.
+
+    Parameters
+    ----------
+    fn : callable
+        Called with no arguments; its result is ignored.
+    min_time : float
+        Shortest timed span, seconds.
+    min_calls : int
+        Fewest timed calls.
+
+    Returns
+    -------
+    float
+        Timed span divided by the number of timed calls.
+    """
     fn()
     t0 = time.perf_counter()
     k = 0
@@ -63,7 +84,7 @@ def measure_rhs(p: int, nel: int, threads: int, viscous: bool = False, min_time:
     old = numba.get_num_threads()
     numba.set_num_threads(threads)
     try:
-        sec = _time_calls(lambda: op.rhs(0.0, U, R), min_time)
+        sec = time_per_call(lambda: op.rhs(0.0, U, R), min_time)
     finally:
         numba.set_num_threads(old)
     return dict(p=p, elements=nel * nel, dof=op.ndof, threads=threads, seconds=sec, mdofs=op.ndof / sec / 1e6)
@@ -147,10 +168,7 @@ def main(args=None, printer=print) -> dict:
     res["compile_seconds"] = _compile_seconds()
     printer(f"JIT compile time (first RHS call, empty cache): {res['compile_seconds']:.1f} s")
     if json_path:
-        tmp = json_path + ".tmp"
-        with open(tmp, "w") as fh:
-            json.dump(res, fh, indent=2)
-        os.replace(tmp, json_path)
+        write_json(json_path, res)
     return res
 
 

@@ -26,8 +26,6 @@ from __future__ import annotations
 
 import argparse
 import importlib
-import json
-import os
 import sys
 import tomllib
 import typing
@@ -54,32 +52,6 @@ def _message(exc: BaseException) -> str:
     if isinstance(exc, OSError) and exc.filename and exc.strerror:
         return f"{exc.filename}: {exc.strerror}"
     return str(exc)
-
-
-def _write_json(path, data) -> None:
-    """Write ``data`` as JSON atomically (temp name, then rename)."""
-    path = Path(path)
-    tmp = path.with_name(path.name + ".tmp")
-    try:
-        with open(tmp, "w", encoding="utf-8") as fh:
-            json.dump(data, fh, indent=2, default=_json_default)
-            fh.write("\n")
-        os.replace(tmp, path)
-    except BaseException:
-        tmp.unlink(missing_ok=True)
-        raise
-
-
-def _json_default(o):
-    import numpy as np
-
-    if isinstance(o, np.ndarray):
-        return o.tolist()
-    if isinstance(o, np.generic):
-        return o.item()
-    if isinstance(o, Path):
-        return str(o)
-    raise TypeError(f"not JSON serialisable: {type(o).__name__}")
 
 
 # ---------------------------------------------------------------------------
@@ -117,7 +89,9 @@ def cmd_verify(args) -> int:
         for name, r in results.items():
             print(f"{name:<20} {'PASS' if r.get('passed') else 'FAIL'}")
     if args.json:
-        _write_json(args.json, results[names[0]] if len(names) == 1 else {"passed": passed, "checks": results})
+        from tools.jsonio import write_json
+
+        write_json(args.json, results[names[0]] if len(names) == 1 else {"passed": passed, "checks": results})
     return 0 if passed else 1
 
 

@@ -23,12 +23,13 @@ or ``python -m tools.dual_bench --case cases/some.toml [--end T] [--dt ...]``.
 from __future__ import annotations
 
 import argparse
-import json
 import os
 import sys
 import time
 
 import numpy as np
+
+from tools.jsonio import write_json
 
 __all__ = ["vortex_setup", "case_setup", "run_explicit", "run_dual", "main"]
 
@@ -236,10 +237,7 @@ def main(argv=None) -> int:
             else:
                 print(f"  no dual-time run {'with' if mg else 'without'} p-multigrid met the acceptance")
     if args.json:
-        tmp = args.json + ".tmp"
-        with open(tmp, "w") as fh:
-            json.dump(out, fh, indent=2)
-        os.replace(tmp, args.json)
+        write_json(args.json, out)
     return 0
 
 

@@ -23,7 +23,6 @@ figures of this machine's calibration are used and labelled so.
 from __future__ import annotations
 
 import dataclasses
-import json
 import math
 import os
 import time
@@ -77,17 +76,6 @@ def _with_degree(case, degree):
     return dataclasses.replace(case, scheme=dataclasses.replace(case.scheme, degree=int(degree)))
 
 
-def _time_per_call(fn, min_time: float, min_calls: int = 3) -> float:
-    fn()
-    k, t0 = 0, time.perf_counter()
-    while True:
-        fn()
-        k += 1
-        el = time.perf_counter() - t0
-        if el >= min_time and k >= min_calls:
-            return el / k
-
-
 def _calibrate_here(case_path: str, degree, min_time: float = 0.5) -> dict:
     """The calibration itself, in the calling process (see :func:`calibrate`)."""
     import tracemalloc
@@ -98,6 +86,7 @@ def _calibrate_here(case_path: str, degree, min_time: float = 0.5) -> dict:
     import solver.output  # noqa: F401 - a real run has h5py loaded too: part of the baseline
     from solver.case import load_case
     from solver.run import build_problem
+    from tools.bench import time_per_call
     from tools.study import warm_up
 
     case = _with_degree(load_case(case_path), degree)
@@ -124,11 +113,11 @@ def _calibrate_here(case_path: str, degree, min_time: float = 0.5) -> dict:
         return (time.perf_counter() - t0) / k, (op.n_rhs - n0) / k
 
     step_all, rhs_per_step = timed_steps()
-    rhs_all = _time_per_call(lambda: op.rhs(0.0, U, R), min_time)
+    rhs_all = time_per_call(lambda: op.rhs(0.0, U, R), min_time)
     numba.set_num_threads(1)
     try:
         step_one, _ = timed_steps()
-        rhs_one = _time_per_call(lambda: op.rhs(0.0, U, R), min_time)
+        rhs_one = time_per_call(lambda: op.rhs(0.0, U, R), min_time)
     finally:
         numba.set_num_threads(threads)
     if not np.all(np.isfinite(U)):
@@ -448,8 +437,7 @@ def main(args, printer=print) -> int:
                    throughputs=args.throughput, per=args.per, units=args.units, unit_memory_gb=args.unit_memory)
     printer(format_estimate(est))
     if args.json:
-        path = Path(args.json)
-        tmp = path.with_name(path.name + ".tmp")
-        tmp.write_text(json.dumps(est, indent=2) + "\n", encoding="utf-8")
-        os.replace(tmp, path)
+        from tools.jsonio import write_json
+
+        write_json(args.json, est)
     return 0

@@ -27,7 +27,6 @@ figure is printed (and written with ``--json``).
 from __future__ import annotations
 
 import argparse
-import json
 import math
 import os
 import signal
@@ -39,6 +38,8 @@ import tomllib
 from pathlib import Path
 
 import numpy as np
+
+from tools.jsonio import write_json
 
 ROOT = Path(__file__).resolve().parents[1]
 ST_REF = -3.3265 / 100.0 + 0.1816 + 1.600e-4 * 100.0
@@ -149,7 +150,7 @@ def main(argv=None) -> int:
     else:
         print(f"no answer within {args.limit_minutes:g} minutes (or the solver stopped)")
     if args.json:
-        Path(args.json).write_text(json.dumps(result, indent=2) + "\n")
+        write_json(args.json, result)
     return 0 if result["reached"] else 1
 
 

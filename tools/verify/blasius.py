@@ -80,12 +80,12 @@ range, and the measured deviations are of the same size as in the full form.
 """
 from __future__ import annotations
 
-import json
 import math
-import os
 import time
 
 import numpy as np
+
+from tools.jsonio import write_json
 
 __all__ = ["PUBLISHED", "TOLERANCES", "MIDDLE", "ETA_EDGE", "QUICK", "FULL", "blasius_solution",
            "compressible_similarity", "plate_problem", "wall_profiles", "run_blasius", "verify_blasius"]
@@ -465,30 +465,6 @@ def run_blasius(config: dict, printer=print, monitor_every: int = 100) -> dict:
                 converged=bool(final.converged), wall=wall, cpu=cpu)
 
 
-def _write_json(path, data) -> None:
-    tmp = f"{path}.tmp"
-    try:
-        with open(tmp, "w", encoding="utf-8") as fh:
-            json.dump(data, fh, indent=2)
-            fh.write("\n")
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.remove(tmp)
-        raise
-
-
-def _finite(o):
-    """Copy of ``o`` with non-finite floats as None (JSON has no inf or nan)."""
-    if isinstance(o, dict):
-        return {k: _finite(v) for k, v in o.items()}
-    if isinstance(o, (list, tuple)):
-        return [_finite(v) for v in o]
-    if isinstance(o, float) and not math.isfinite(o):
-        return None
-    return o
-
-
 def verify_blasius(quick: bool = False, json_path: str | None = None, printer=print) -> dict:
     """Blasius flat plate: cf sqrt(Re_x) within 3 % of 0.664 and delta* sqrt(Re_x)/x within 4 % of 1.7208.
 
@@ -574,5 +550,5 @@ def verify_blasius(quick: bool = False, json_path: str | None = None, printer=pr
            "cf_deviation": worst_cf, "dstar_deviation": worst_ds, "steady_passed": bool(ok_steady),
            "run": run, "wall": wall}
     if json_path:
-        _write_json(json_path, _finite(out))
+        write_json(json_path, out)
     return out

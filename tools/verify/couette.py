@@ -13,11 +13,12 @@ In our units (U = H = 1, temperatures in free-stream units) ``U^2/cp =
 """
 from __future__ import annotations
 
-import json
 import math
 import time
 
 import numpy as np
+
+from tools.jsonio import write_json
 
 __all__ = ["run_couette", "verify_couette"]
 
@@ -108,6 +109,5 @@ def verify_couette(quick: bool = False, json_path: str | None = None, printer=pr
     out = {"check": "couette", "passed": bool(passed), "rows": rows, "heat_flux": hf,
            "reference": "White, Viscous Fluid Flow (2006)"}
     if json_path:
-        with open(json_path, "w") as fh:
-            json.dump(out, fh, indent=2)
+        write_json(json_path, out)
     return out

@@ -52,12 +52,12 @@ not judged against ``p + 0.5``.
 """
 from __future__ import annotations
 
-import json
 import math
-import os
 import time
 
 import numpy as np
+
+from tools.jsonio import write_json
 
 __all__ = ["run_cylinder_case", "verify_inviscid_cylinder", "potential_flow_state"]
 
@@ -147,19 +147,6 @@ def run_cylinder_case(p: int, n_around: int, q: int = 3, t_end: float = 25.0, mo
                 residual=hist[-1]["residual"], history=hist, steps=steps, wall=wall, t_end=t)
 
 
-def _write_json(path, data) -> None:
-    tmp = f"{path}.tmp"
-    try:
-        with open(tmp, "w", encoding="utf-8") as fh:
-            json.dump(data, fh, indent=2)
-            fh.write("\n")
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.remove(tmp)
-        raise
-
-
 def verify_inviscid_cylinder(quick: bool = False, json_path: str | None = None, printer=print) -> dict:
     """Entropy-error orders with curved (q = 3) and straight (q = 1) walls for p = 1..3.
 
@@ -239,16 +226,5 @@ def verify_inviscid_cylinder(quick: bool = False, json_path: str | None = None, 
     out = {"check": "inviscid-cylinder", "passed": bool(passed), "rows": rows, "wall": wall,
            "reference": "Bassi & Rebay 1997, J. Comput. Phys. 138", "mach": MACH, "t_end": t_end}
     if json_path:
-        _write_json(json_path, _finite(out))
+        write_json(json_path, out)
     return out
-
-
-def _finite(o):
-    """Copy of ``o`` with non-finite floats as None (JSON has no inf or nan)."""
-    if isinstance(o, dict):
-        return {k: _finite(v) for k, v in o.items()}
-    if isinstance(o, list):
-        return [_finite(v) for v in o]
-    if isinstance(o, float) and not math.isfinite(o):
-        return None
-    return o

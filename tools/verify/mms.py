@@ -13,11 +13,12 @@ approaches 3 from below (2.65 from 6 to 12 elements, 2.99 from 12 to 24).
 """
 from __future__ import annotations
 
-import json
 import math
 import time
 
 import numpy as np
+
+from tools.jsonio import write_json
 
 __all__ = ["run_mms", "verify_mms", "ManufacturedSource", "LEVELS", "T_END"]
 
@@ -120,6 +121,5 @@ def verify_mms(quick: bool = False, json_path: str | None = None, printer=print)
     printer(f"mms: {'PASS' if passed else 'FAIL'}")
     out = {"check": "mms", "passed": bool(passed), "rows": rows, "reference": "Roache 2002; Salari & Knupp 2000"}
     if json_path:
-        with open(json_path, "w") as fh:
-            json.dump(out, fh, indent=2)
+        write_json(json_path, out)
     return out

@@ -10,11 +10,12 @@ tail sets no error floor) and compared with the exact advected vortex.
 """
 from __future__ import annotations
 
-import json
 import math
 import time
 
 import numpy as np
+
+from tools.jsonio import write_json
 
 __all__ = ["run_vortex_case", "verify_vortex"]
 
@@ -96,6 +97,5 @@ def verify_vortex(quick: bool = False, json_path: str | None = None, printer=pri
     out = {"check": "vortex", "passed": bool(passed), "rows": rows,
            "reference": "Shu 1998; Yee, Sandham & Djomehri 1999"}
     if json_path:
-        with open(json_path, "w") as fh:
-            json.dump(out, fh, indent=2)
+        write_json(json_path, out)
     return out
