@@ -28,6 +28,7 @@ import math
 import tomllib
 import types
 import typing
+import dataclasses
 from dataclasses import dataclass, field, make_dataclass
 from pathlib import Path
 from typing import Any
@@ -237,11 +238,14 @@ SCHEMA: dict[str, dict[str, Key]] = {
     },
     "boundaries": {},  # mesh tag -> condition; validated against the boundary registry
     "initial": {
-        "kind": Key("choice", "uniform", "initial state: the free stream, or free stream plus a vortex",
-                    choices=("uniform", "vortex")),
+        "kind": Key("choice", "uniform", "initial state: the free stream, free stream plus a vortex, or the "
+                                         "state of an earlier run's snapshot", choices=("uniform", "vortex", "snapshot")),
         "strength": _num(5.0, "vortex: strength beta of the isentropic vortex (Yee, Sandham & Djomehri 1999)"),
         "radius": _num(1.0, "vortex: radius (mesh units)", lo=0.0, lo_open=True),
         "center": Key("vector", [0.0, 0.0], "vortex: centre (x, y)", length=2),
+        "file": Key("string", None, "snapshot: snapshot file of an earlier run on the same mesh, relative to the "
+                                    "case file's folder; the run starts at its time (another degree, scheme or time "
+                                    "integration is allowed: the state is carried over through the modal basis)"),
     },
     "output": {
         "directory": Key("string", None, "run folder, relative to the case file's folder; "
@@ -982,6 +986,15 @@ def _build_case(ctx: _Ctx, path: Path, text: str, data: dict) -> Case:
         for k in _VORTEX_KEYS:
             if k in ini:
                 raise ctx.err("initial", f"{k} applies only to kind = 'vortex' (kind is '{initial.kind}')")
+    if initial.kind == "snapshot":
+        if "file" not in ini:
+            raise ctx.err("initial", "kind = 'snapshot' needs 'file' (the snapshot to start from)")
+        snap = (path.parent / initial.file).resolve()
+        if not snap.is_file():
+            raise ctx.err("initial", f"file: snapshot '{snap}' not found")
+        initial = dataclasses.replace(initial, file=str(snap))
+    elif "file" in ini:
+        raise ctx.err("initial", f"file applies only to kind = 'snapshot' (kind is '{initial.kind}')")
     output = OutputSection(**_section_values(ctx, "output", tables["output"]))
     monitor = MonitorSection(**_section_values(ctx, "monitor", tables["monitor"]))
     _check_monitor(ctx, monitor, boundaries)

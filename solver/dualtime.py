@@ -17,6 +17,7 @@ from fractions import Fraction
 
 import numpy as np
 
+from .pseudotime import guarded_iteration
 from .registry import Registry
 from .timeschemes import TIME_SCHEMES
 
@@ -477,27 +478,16 @@ class DualTimeStepper:
             converged = r <= self.tolerance or (self.drop is not None and r <= self.drop * r0)
             if (converged and it >= self.min_it) or it >= self.max_it:
                 break
-            if it > 0 and it % self.refresh == 0:
-                solver.update_dtau(U)
-            np.copyto(self._backup, U)
-            if self.mg is not None:
-                self.mg.cycle(U, have_residual=True)
-            else:
-                fine.smooth(U, 1, have_residual=True)
-            r = fine.residual(U, fine.K[0])
+            r, failed = guarded_iteration(U, fine, self.mg, self._backup, it, self.refresh)
             it += 1
-            if not math.isfinite(r):
-                # an iteration ran into an unphysical state (e.g. at the flux points): undo it and
-                # continue with half the pseudo-time steps on every level
+            if failed:
+                # an iteration ran into an unphysical state: it was undone, and the pseudo-time steps of
+                # every level halved
                 backoffs += 1
                 if backoffs > self.MAX_BACKOFFS:
                     raise FloatingPointError(f"dual time step to t = {t + dt:.6g}: inner residual is not finite "
                                              f"after {it} iterations, even with the pseudo-time steps reduced "
                                              f"{self.MAX_BACKOFFS} times by half")
-                np.copyto(U, self._backup)
-                for lv in active:
-                    lv.back_off(0.5)
-                r = fine.residual(U, fine.K[0])
         stats["backoffs"] += backoffs
         stats["iterations"] += it
         stats["rhs"] += fine.op.n_rhs - n0

@@ -87,3 +87,67 @@ def isentropic_vortex(xy, ref, strength=5.0, radius=1.0, center=(0.0, 0.0), t=0.
     rho = rho_inf * T ** (1.0 / (g - 1.0))
     p = p_inf * T ** (g / (g - 1.0))
     return conserved(rho, u_inf - du * dy, v_inf + du * dx, p, g)
+
+
+@INITIAL_CONDITIONS.decorate(
+    "snapshot", params=("file",), defaults={"file": None},
+    doc="the state of an earlier run's snapshot on the same mesh; the run starts at its time")
+def snapshot_state(xy, ref, file=None, op=None):
+    """State of a snapshot file, carried over to the operator's degree and points.
+
+    Parameters
+    ----------
+    xy : (ne, n, n, 2) array
+        Solution points of the new run (only their shape is used).
+    ref : dict
+        Free stream (unused: the snapshot holds the whole state).
+    file : str or Path
+        Snapshot written by ``solver.output.write_snapshot``.
+    op : FROperator
+        Operator of the new run; its mesh must be the snapshot's mesh.
+
+    Returns
+    -------
+    U : (ne, n, n, 4) array
+    t0 : float
+        Time of the snapshot: the start time of the new run.
+
+    Raises
+    ------
+    ValueError
+        Another mesh (element count, geometry degree or node positions), or a
+        state that is not finite; the message names the file.
+
+    Notes
+    -----
+    The state is carried between degrees and point sets by the modal transfer
+    of solver.pmultigrid (truncation of the orthonormal Legendre series when
+    the new degree is lower, zero padding when it is higher), applied along
+    both reference directions: ``U_new = (T (x) T) U_old``.  On the same
+    degree and points ``T = I`` and the state is copied exactly.
+    """
+    from solver.basis import make_basis
+    from solver.output import read_snapshot
+    from solver.pmultigrid import modal_transfer
+
+    snap = read_snapshot(file)
+    mine, theirs = op.mesh, snap.mesh
+    if theirs.geom.shape != mine.geom.shape:
+        raise ValueError(f"{file}: snapshot mesh has {theirs.n_elements} elements of geometry degree {theirs.q}, "
+                         f"this case's mesh {mine.n_elements} of degree {mine.q}: start from a snapshot of the "
+                         "same mesh")
+    size = float(np.ptp(mine.geom.reshape(-1, 2), axis=0).max())
+    off = np.abs(theirs.geom - mine.geom).reshape(theirs.n_elements, -1).max(axis=1)
+    if off.max() > 1e-9 * size:
+        e = int(np.argmax(off))
+        raise ValueError(f"{file}: snapshot mesh differs from this case's mesh (element {e}: nodes moved by "
+                         f"{off[e]:.3g}): start from a snapshot of the same mesh")
+    U = np.asarray(snap.U, dtype=float)
+    if not np.all(np.isfinite(U)):
+        raise ValueError(f"{file}: the snapshot state is not finite")
+    b_old = make_basis(snap.degree, snap.points)
+    b_new = op.basis
+    if b_old.n == b_new.n and np.array_equal(np.asarray(b_old.x), np.asarray(b_new.x)):
+        return np.ascontiguousarray(U), float(snap.time)
+    T = modal_transfer(b_old, b_new)
+    return np.ascontiguousarray(np.einsum("ia,jb,eabv->eijv", T, T, U)), float(snap.time)

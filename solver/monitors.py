@@ -18,17 +18,21 @@ time, so mean ``= S1 / T`` and variance ``= S2 / T - mean^2``.
 """
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 from .forces import COEFFICIENTS, ForceIntegrator
 from .kernels import monitor as _km
 from .probes import PointSampler
 
-__all__ = ["Monitor", "RunningAverage", "RESIDUAL_NAMES", "BOUND_NAMES", "PROBE_NAMES"]
+__all__ = ["Monitor", "RunningAverage", "RESIDUAL_NAMES", "BOUND_NAMES", "PROBE_NAMES", "INNER_NAMES"]
 
 RESIDUAL_NAMES = ("rho", "rhou", "rhov", "rhoE")
 BOUND_NAMES = ("rho_min", "rho_max", "p_min", "p_max")
 PROBE_NAMES = ("rho", "u", "v", "p")
+#: dual time: keys of DualTimeStepper.last_stats recorded per sample
+INNER_NAMES = ("iterations", "residual0", "residual", "rhs", "coarse_rhs", "converged")
 
 
 class Monitor:
@@ -45,9 +49,12 @@ class Monitor:
         Reference length of the coefficients.
     moment_point : (2,) sequence
     probes : (np, 2) array_like
+    inner : bool
+        Dual time stepping: add the columns of the inner iteration of the
+        step before each sample (:data:`INNER_NAMES`).
     """
 
-    def __init__(self, op, ref: dict, walls, length: float, moment_point=(0.0, 0.0), probes=()):
+    def __init__(self, op, ref: dict, walls, length: float, moment_point=(0.0, 0.0), probes=(), inner=False):
         self.op = op
         self.gamma = op.gamma
         q_inf = 0.5 * ref["rho"] * (ref["u"] ** 2 + ref["v"] ** 2)
@@ -60,6 +67,9 @@ class Monitor:
         cols += [f"residual/{v}" for v in RESIDUAL_NAMES]
         cols += [f"bounds/{b}" for b in BOUND_NAMES]
         cols += [f"probes/{k}/{v}" for k in range(len(self.sampler)) for v in PROBE_NAMES]
+        self.inner = bool(inner)
+        if self.inner:
+            cols += [f"inner/{v}" for v in INNER_NAMES]
         self.columns = cols
         self.attrs = {
             "walls": [str(w) for w in walls],
@@ -70,6 +80,9 @@ class Monitor:
             "probe_points": self.sampler.points,
             "probe_elements": self.sampler.elements,
             "residual_definition": "rms over solution points of dU/dt, per conserved variable",
+            "inner_definition": "dual time: of the physical step that ended at the sample, inner iterations "
+                                "(cycles), weighted rms unsteady residual at the start (after the predictor) and "
+                                "at the end, fine-level and coarse-level residual evaluations, 1 if converged",
             "force_definition": "pressure part: inviscid part of the common wall flux; viscous part: -BR2 "
                                 "viscous wall flux; coefficients on 0.5 rho U^2 and the reference length",
         }
@@ -77,8 +90,12 @@ class Monitor:
         self._bounds = np.empty(4)
         self._where = np.zeros(4, dtype=np.int64)
 
-    def sample(self, t: float, U: np.ndarray, step: int, wall: float, dt: float) -> np.ndarray:
-        """One history row (column order of :attr:`columns`); evaluates ``R(U)`` once."""
+    def sample(self, t: float, U: np.ndarray, step: int, wall: float, dt: float, inner=None) -> np.ndarray:
+        """One history row (column order of :attr:`columns`); evaluates ``R(U)`` once.
+
+        ``inner`` is the dual-time stepper's ``last_stats`` (dict; empty or
+        None before the first step: NaN entries).
+        """
         R = self.op.rhs(t, U, self._R)
         row = [float(step), float(t), float(wall), float(dt)]
         if self.forces is not None:
@@ -90,6 +107,10 @@ class Monitor:
         row += list(self._bounds)
         if len(self.sampler):
             row += list(self.sampler.primitive(U, self.gamma).reshape(-1))
+        if self.inner:
+            st = inner or {}
+            row += [float(st["converged"]) if k == "converged" and k in st else float(st.get(k, math.nan))
+                    for k in INNER_NAMES]
         return np.asarray(row, dtype=float)
 
     def residual_rms(self) -> float:

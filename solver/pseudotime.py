@@ -16,7 +16,7 @@ from .kernels import pseudotime as _kp
 from .stability import real_axis_reach, stable_cfl
 from .timeschemes import get_scheme
 
-__all__ = ["PseudoTimeLevel", "residual_scale", "KAPPA", "HALVINGS"]
+__all__ = ["PseudoTimeLevel", "residual_scale", "guarded_iteration", "KAPPA", "HALVINGS"]
 
 #: admissibility safeguard: an update may not bring density or pressure below KAPPA times their
 #: value before it; otherwise it is halved (at most HALVINGS times, then dropped) in that element
@@ -221,3 +221,48 @@ class PseudoTimeLevel:
             idx, coef, m = self._final
             _kp.scaled_combination(Y, U, K, idx, coef, m, d)
             self.n_damped += _kp.limit_update(U, Y, U, False, self.op.gamma, KAPPA, HALVINGS)
+
+
+def guarded_iteration(U: np.ndarray, fine: "PseudoTimeLevel", mg, backup: np.ndarray, it: int,
+                      refresh: int) -> tuple[float, bool]:
+    """One inner iteration (a multigrid cycle, or one smoother sweep) that is undone if it fails.
+
+    Parameters
+    ----------
+    U : (ne, n, n, 4) array
+        State, updated in place; ``fine.K[0]`` must hold its residual.
+    fine : PseudoTimeLevel
+        Finest level.
+    mg : solver.pmultigrid.PMultigrid or None
+        Cycle over the levels; None: plain smoothing on ``fine``.
+    backup : (ne, n, n, 4) array
+        Work array for the state before the iteration.
+    it : int
+        Iterations done so far; the local pseudo-time steps are refreshed
+        every ``refresh`` iterations.
+
+    Returns
+    -------
+    r : float
+        Weighted RMS residual after the iteration (``fine.K[0]`` holds it).
+    failed : bool
+        The iteration produced a non-finite residual (e.g. an unphysical
+        state at the flux points): ``U`` was restored and every active
+        level's pseudo-time steps halved; the caller counts these and gives up
+        after a limit.
+    """
+    solver = mg if mg is not None else fine
+    if it > 0 and it % refresh == 0:
+        solver.update_dtau(U)
+    np.copyto(backup, U)
+    if mg is not None:
+        mg.cycle(U, have_residual=True)
+    else:
+        fine.smooth(U, 1, have_residual=True)
+    r = fine.residual(U, fine.K[0])
+    if math.isfinite(r):
+        return r, False
+    np.copyto(U, backup)
+    for lv in (mg.levels if mg is not None else [fine]):
+        lv.back_off(0.5)
+    return fine.residual(U, fine.K[0]), True

@@ -50,9 +50,18 @@ class Problem:
     op: object
     stepper: object
     U0: np.ndarray
+    t0: float = 0.0
 
 
-def _initial_state(case, op, ref) -> np.ndarray:
+def _initial_state(case, op, ref):
+    """Initial state and start time ``(U0, t0)`` of the case's ``[initial]`` entry.
+
+    An initial-condition function returns ``U`` (start time 0) or ``(U, t0)``;
+    one that takes an ``op`` argument is given the operator.
+    """
+    import inspect
+
+    from solver.case import CaseError
     from solver.initial import INITIAL_CONDITIONS
 
     ini = case.initial
@@ -61,7 +70,14 @@ def _initial_state(case, op, ref) -> np.ndarray:
     for name in entry.params:
         v = getattr(ini, name, None)
         kw[name] = entry.defaults[name] if v is None else v
-    return np.ascontiguousarray(entry.obj(op.metrics.xy, ref, **kw))
+    if "op" in inspect.signature(entry.obj).parameters:
+        kw["op"] = op
+    try:
+        out = entry.obj(op.metrics.xy, ref, **kw)
+    except ValueError as exc:
+        raise CaseError(f"{case.path.name}: [initial] {exc}") from None
+    U, t0 = out if isinstance(out, tuple) else (out, 0.0)
+    return np.ascontiguousarray(U), float(t0)
 
 
 def build_problem(case) -> Problem:
@@ -110,8 +126,11 @@ def build_problem(case) -> Problem:
         stepper = ExplicitStepper(op, t.scheme, cfl=None if t.dt is not None else t.cfl, dt=t.dt)
         if sponge is not None:
             stepper.rate_cap = sponge.max_rate
-    U0 = _initial_state(case, op, ref)
-    return Problem(case, mesh, ref, op, stepper, U0)
+    U0, t0 = _initial_state(case, op, ref)
+    if case.time.end is not None and t0 >= case.time.end:
+        raise CaseError(f"{case.path.name}: [time] end = {case.time.end:g} is not after the start time {t0:g} "
+                        f"of the [initial] snapshot")
+    return Problem(case, mesh, ref, op, stepper, U0, t0)
 
 
 def _sponge(case, op, ref):
@@ -222,7 +241,8 @@ def _monitor_setup(case, prob):
     m = case.monitor
     walls = list(m.walls) if m.walls is not None else wall_tags(case.boundaries)
     length = float(m.length) if m.length is not None else float(prob.ref["length"])
-    monitor = Monitor(prob.op, prob.ref, walls, length, m.moment_point, m.probes)
+    monitor = Monitor(prob.op, prob.ref, walls, length, m.moment_point, m.probes,
+                      inner=hasattr(prob.stepper, "last_stats"))
     avg = RunningAverage(prob.op.shape, prob.op.gamma, m.average_from) if m.average_from is not None else None
     return monitor, avg
 
@@ -263,7 +283,9 @@ def run_case(case, resume: bool = False, printer=print, stop_after: int | None =
     dict
         ``status`` ("finished", "interrupted" or "stopped"), ``time``, ``step``,
         ``wall`` (this session, s), ``rhs_evaluations``, ``snapshot`` (last
-        path), ``run_dir``, ``dof``.
+        path), ``run_dir``, ``dof``; with dual time stepping also
+        ``inner_totals`` (this session: steps, iterations, fine-level ``rhs``,
+        ``coarse_rhs``, ``unconverged``, ...).
 
     Raises
     ------
@@ -292,10 +314,10 @@ def run_case(case, resume: bool = False, printer=print, stop_after: int | None =
     h_every = int(ocfg.history_every)
     h_interval = float(ocfg.history_interval or 0.0)
     U = prob.U0
-    t, step = 0.0, 0
+    t, step = prob.t0, 0  # t0 > 0: started from another run's snapshot
     dt = st.stable_dt(U)
-    k_out = 1            # next scheduled snapshot: time k_out * every
-    k_hist = 0           # next time-scheduled history sample: time k_hist * h_interval
+    k_out = math.floor(t / every + 1e-9) + 1 if every > 0 else 1  # next scheduled snapshot: time k_out * every
+    k_hist = math.floor(t / h_interval + 1e-9) + 1 if h_interval > 0 and t > 0 else 0  # next history sample
     wall_before = 0.0    # wall time of earlier sessions
     resumed_from = None
     if resume:
@@ -331,8 +353,18 @@ def run_case(case, resume: bool = False, printer=print, stop_after: int | None =
     log = RunLog(run_dir / "run.log")
     for line in case.describe():
         printer(line)
+    if dual_mode:
+        sm = st.fine
+        scheme_line = (f"{st.scheme_name} dt {st.fixed_dt:g}; pseudo-time {sm.smoother} (stable CFL for p={op.p}: "
+                       f"{sm.cfl_max:.4f}), "
+                       + (f"p-multigrid {'-'.join(str(d) for d in st.mg.degrees)}" if st.mg is not None
+                          else "no multigrid"))
+    else:
+        scheme_line = f"stable CFL of {st.scheme_name} for p={op.p}: {st.cfl_max:.4f}"
     printer(f"  mesh: {prob.mesh.n_elements} elements, geometry degree {prob.mesh.q}; {op.ndof} DoF; "
-            f"stable CFL of {st.scheme_name} for p={op.p}: {st.cfl_max:.4f}")
+            + scheme_line)
+    if prob.t0 > 0 and not resume:
+        printer(f"  start: t = {prob.t0:g} from snapshot {case.initial.file}")
     if monitor.forces is not None:
         printer(f"  forces on {', '.join(monitor.forces.tags)} (reference length {monitor.forces.length:g}, moment "
                 f"about ({monitor.forces.point[0]:g}, {monitor.forces.point[1]:g})); "
@@ -391,7 +423,7 @@ def run_case(case, resume: bool = False, printer=print, stop_after: int | None =
 
     def record():
         nonlocal k_hist
-        hist.append(monitor.sample(t, U, step, wall_now(), dt))
+        hist.append(monitor.sample(t, U, step, wall_now(), dt, getattr(st, "last_stats", None)))
         if h_interval > 0:
             k_hist = math.floor(t / h_interval * (1 + 1e-12)) + 1
         if _time.perf_counter() - state["last_flush"] > FLUSH_SECONDS:
@@ -500,5 +532,8 @@ def run_case(case, resume: bool = False, printer=print, stop_after: int | None =
         printer(f"done: t = {t:.6g}, {step - step0} steps, wall {_fmt_seconds(wall)}, "
                 f"{op.ndof * op.n_rhs / max(wall, 1e-300) / 1e6:.1f} MDoF/s per RHS incl. overheads; "
                 f"last snapshot {state['last_path']}")
-    return dict(status=status, time=t, step=step, wall=wall, rhs_evaluations=op.n_rhs,
-                snapshot=str(state["last_path"]), run_dir=str(run_dir), dof=op.ndof)
+    out = dict(status=status, time=t, step=step, wall=wall, rhs_evaluations=op.n_rhs,
+               snapshot=str(state["last_path"]), run_dir=str(run_dir), dof=op.ndof)
+    if dual_mode:
+        out["inner_totals"] = dict(st.totals)  # this session's steps: iterations, fine/coarse RHS, unconverged
+    return out

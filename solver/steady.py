@@ -17,7 +17,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .pmultigrid import PMultigrid, modal_transfer
-from .pseudotime import PseudoTimeLevel
+from .pseudotime import PseudoTimeLevel, guarded_iteration
 
 __all__ = ["SteadyResult", "SteadySolver", "steady_levels", "solve_steady", "prolong_state",
            "solve_steady_sequence"]
@@ -244,24 +244,13 @@ class SteadySolver:
             if max_wall is not None and time.perf_counter() - w0 >= max_wall:
                 reason = "max_wall"
                 break
-            if it > 0 and it % self.refresh == 0:
-                solver.update_dtau(U)
-            np.copyto(self._backup, U)
-            if self.mg is not None:
-                self.mg.cycle(U, have_residual=True)
-            else:
-                fine.smooth(U, 1, have_residual=True)
-            r = fine.residual(U, fine.K[0])
+            r, failed = guarded_iteration(U, fine, self.mg, self._backup, it, self.refresh)
             it += 1
-            if not math.isfinite(r):
+            if failed:
                 backoffs += 1
                 if backoffs > self.MAX_BACKOFFS:
                     raise FloatingPointError(f"steady solve: residual not finite after {it} iterations, even with "
                                              f"the pseudo-time steps halved {self.MAX_BACKOFFS} times")
-                np.copyto(U, self._backup)
-                for lv in self.levels:
-                    lv.back_off(0.5)
-                r = fine.residual(U, fine.K[0])
                 continue
             if it % history_every == 0:
                 record(it)

@@ -99,7 +99,6 @@ def residual_np(U, metrics, basis, mesh, gamma, flux="rusanov", efix=0.1, ghost=
         Exterior state on boundary faces (by element, face).
     """
     D, Lm, Lp, g = basis.D, basis.Lf[0], basis.Lf[1], basis.dgR
-    n = basis.x.size
     F, G = euler_flux_np(U, gamma)
     Mr, Ms = metrics.Mr, metrics.Ms
     Ft = Mr[..., 0:1] * F + Mr[..., 1:2] * G

@@ -403,11 +403,16 @@ def test_cli_cases_lists_titles(tmp_path, capsys):
     assert out == ["one.toml  a test case", "two.toml  second"]
 
 
-def test_demo_case_loads():
-    """The bundled demo case is valid (mesh built, tags match)."""
-    case = load_case(ROOT / "cases" / "vortex.toml")
+@pytest.mark.parametrize("name", sorted(p.name for p in (ROOT / "cases").glob("*.toml")))
+def test_bundled_cases_build(name):
+    """Every bundled case is valid: mesh built, tags match, operator, stepper and initial state built."""
+    from solver.run import build_problem
+
+    case = load_case(ROOT / "cases" / name)
     mesh = case.make_mesh()
     assert mesh.n_elements > 0 and sorted(case.boundaries) == mesh.tags
+    prob = build_problem(case)
+    assert prob.U0.shape == prob.op.shape and np.all(np.isfinite(prob.U0))
 
 
 def test_cli_meshcheck_on_a_case(tmp_path, capsys):

@@ -5,37 +5,13 @@ import pytest
 from solver.case import CaseError, load_case
 from solver.output import latest_snapshot, read_snapshot
 from solver.run import run_case
-
-BASE = """
-title = "driver test"
-[flow]
-mach = 0.5
-[mesh]
-generator = "box"
-nx = 4
-ny = 4
-x0 = -5.0
-x1 = 5.0
-y0 = -5.0
-y1 = 5.0
-q = 2
-{mesh_extra}
-[scheme]
-degree = 2
-[time]
-{time}
-[initial]
-kind = "vortex"
-{extra}
-"""
+from vortex_box import write_vortex_box
 
 DUAL = 'scheme = "bdf2"\ndt = 0.2\nsteps = 6\n[pseudo]\ntolerance = 1e-6'
 
 
 def _case(tmp_path, name, time=DUAL, extra="", mesh_extra=""):
-    path = tmp_path / f"{name}.toml"
-    path.write_text(BASE.format(time=time, extra=extra, mesh_extra=mesh_extra))
-    return load_case(path)
+    return load_case(write_vortex_box(tmp_path / f"{name}.toml", time, extra=extra, mesh_extra=mesh_extra))
 
 
 def _quiet(*a):
@@ -80,9 +56,24 @@ def test_sponge_unknown_tag_is_named(tmp_path):
 
 
 def test_unknown_viscous_scheme_lists_valid(tmp_path):
-    path = tmp_path / "v.toml"
-    path.write_text(BASE.format(time='steps = 1', extra="", mesh_extra="").replace(
-        "degree = 2", 'degree = 2\nviscous = "br3"'))
+    path = write_vortex_box(tmp_path / "v.toml", 'steps = 1')
+    path.write_text(path.read_text().replace("degree = 2", 'degree = 2\nviscous = "br3"'))
     with pytest.raises(CaseError) as exc:
         load_case(path)
     assert "br2" in str(exc.value) and "ldg" in str(exc.value)
+
+
+def test_history_records_the_inner_iteration_of_every_step(tmp_path):
+    from solver.history import read_history
+
+    r = run_case(_case(tmp_path, "inner", extra="[output]\nhistory_every = 1"), printer=_quiet)
+    d = read_history(tmp_path / "runs" / "inner")["data"]
+    it, res, res0 = d["inner/iterations"], d["inner/residual"], d["inner/residual0"]
+    assert np.isnan(it[0])                      # the initial state: no step yet
+    assert len(it) == 7 and np.all(it[1:] >= 1)
+    assert np.all(res[1:] <= 1e-6) and np.all(res0[1:] >= res[1:])  # [pseudo] tolerance = 1e-6
+    assert np.all(d["inner/converged"][1:] == 1.0)
+    # per-step counts add up to the stepper's totals that the driver returns
+    tot = r["inner_totals"]
+    assert tot["steps"] == 6 and int(np.sum(it[1:])) == tot["iterations"]
+    assert int(np.sum(d["inner/rhs"][1:])) == tot["rhs"] and int(np.sum(d["inner/coarse_rhs"][1:])) == tot["coarse_rhs"]

@@ -104,3 +104,45 @@ def test_estimate_report_and_bad_options(tmp_path):
         estimate(case, span=2.0, calib=cal)
     with pytest.raises(ValueError, match="--throughput"):
         estimate(case, span=2.0, span_cells=2, throughputs=[-1.0], calib=cal)
+
+
+def test_estimate_from_an_earlier_run(tmp_path):
+    # the forecast takes the run's own numbers from its history: for dual time the mean fine + coarse
+    # residual evaluations per step of the last half of the rows, for an explicit CFL run its mean step
+    import numpy as np
+
+    from solver.case import load_case
+    from solver.history import read_history
+    from solver.run import run_case
+
+    from vortex_box import write_vortex_box
+
+    def case(name, time, p=2):
+        return write_vortex_box(tmp_path / f"{name}.toml", time, p=p, extra="[output]\nhistory_every = 1")
+
+    dual = case("dual", 'scheme = "bdf2"\ndt = 0.2\nend = 2.0\n[pseudo]\ntolerance = 1e-6')
+    run_case(load_case(dual), printer=lambda *a: None)
+    run = tmp_path / "runs" / "dual"
+    d = read_history(run)["data"]
+    n = len(d["time"])
+    k0 = max(1, int(n * 0.5))
+    want = np.mean(d["inner/rhs"][k0:]) + np.mean(d["inner/coarse_rhs"][k0:])
+    est = estimate(dual, from_run=run, min_time=0.05)
+    assert est["rhs_per_step"] == pytest.approx(want, rel=1e-12)
+    assert est["steps_2d"] == 10 and est["dt_2d"] == pytest.approx(0.2)
+    assert any("inner iterations" in a for a in est["assumptions"])
+    assert "RHS per step" in format_estimate(est)
+
+    expl = case("expl", 'scheme = "ssp-rk33"\ncfl = 0.9\nend = 1.0')
+    run_case(load_case(expl), printer=lambda *a: None)
+    d = read_history(tmp_path / "runs" / "expl")["data"]
+    n = len(d["time"])
+    k0 = max(1, int(n * 0.5))
+    est = estimate(expl, from_run=tmp_path / "runs" / "expl", min_time=0.05)
+    assert est["dt_2d"] == pytest.approx((d["time"][-1] - d["time"][k0]) / (d["step"][-1] - d["step"][k0]), rel=1e-12)
+
+    other = case("other", 'scheme = "ssp-rk33"\ncfl = 0.9\nend = 1.0', p=3)
+    with pytest.raises(ValueError, match=r"--from-run .*expl: the run has 16 elements at degree 2, the case 16 at degree 3"):
+        estimate(other, from_run=tmp_path / "runs" / "expl", min_time=0.05)
+    with pytest.raises(ValueError, match=r"--from-run .*nowhere"):
+        estimate(expl, from_run=tmp_path / "nowhere", min_time=0.05)

@@ -6,7 +6,7 @@ from pathlib import Path
 import pytest
 
 from tools.richardson import representative_spacing
-from tools.study import (Level, StudyError, analyse, levels_csv, markdown_report, parse_degrees, parse_meshes,
+from tools.study import (Level, StudyError, analyse, levels_csv, parse_degrees, parse_meshes,
                          parse_tolerance, refined_mesh_table, run_study, toml_dumps)
 
 ROOT = Path(__file__).resolve().parents[1]

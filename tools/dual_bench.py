@@ -91,7 +91,7 @@ def case_setup(path, smoother: str = "ssp-rk33"):
     op = op_factory(s.degree)
     from solver.run import _initial_state  # the driver's own initial state
 
-    return op_factory, _initial_state(case, op, ref), case
+    return op_factory, _initial_state(case, op, ref)[0], case
 
 
 def run_explicit(op_factory, p, U0, t_end, scheme="ssp-rk33", cfl=0.9):

@@ -236,9 +236,65 @@ def stable_dt_extruded(op, stepper, U, depth: float | None) -> tuple[float, floa
     return dt2, float(stepper.cfl / np.max(inv))
 
 
+def run_rates(run_dir, elements: int, degree: int, tail: float = 0.5) -> dict:
+    """Time step and residual evaluations per step of an earlier run of the same case, from its history.
+
+    Parameters
+    ----------
+    run_dir : path
+        Run folder with ``history.h5`` and at least one snapshot.
+    elements, degree : int
+        Of the case being estimated; the run must match them.
+    tail : float
+        Fraction of the history rows (the last ones: the developed flow) averaged.
+
+    Returns
+    -------
+    dict
+        ``run_dir``, ``rows`` (averaged), ``t_from``, ``t_to``, ``dt`` (mean time step), and for a
+        dual-time run ``fine_rhs``, ``coarse_rhs`` (mean per step) and ``iterations``; ``dual`` (bool).
+
+    Raises
+    ------
+    ValueError
+        No history, too few rows, or a run of another mesh size or degree; names the folder.
+    """
+    import numpy as np
+
+    from solver.history import read_history
+    from solver.output import latest_snapshot, read_snapshot
+
+    run_dir = Path(run_dir)
+    try:
+        h = read_history(run_dir)
+    except (OSError, ValueError) as exc:
+        raise ValueError(f"--from-run {run_dir}: {exc}") from None
+    snap = latest_snapshot(run_dir)
+    if snap is None:
+        raise ValueError(f"--from-run {run_dir}: no snapshot in the folder (cannot tell its mesh and degree)")
+    s = read_snapshot(snap)
+    if s.mesh.n_elements != elements or s.degree != degree:
+        raise ValueError(f"--from-run {run_dir}: the run has {s.mesh.n_elements} elements at degree {s.degree}, "
+                         f"the case {elements} at degree {degree}")
+    d = h["data"]
+    n = len(d["time"])
+    k0 = max(1, int(n * (1.0 - tail)))
+    if n - k0 < 2:
+        raise ValueError(f"--from-run {run_dir}: the history has {n} rows; too few to average")
+    step, t = np.asarray(d["step"], dtype=float), np.asarray(d["time"], dtype=float)
+    out = {"run_dir": str(run_dir), "rows": n - k0, "t_from": float(t[k0]), "t_to": float(t[-1]),
+           "dt": float((t[-1] - t[k0]) / max(step[-1] - step[k0], 1.0)), "dual": "inner/rhs" in d}
+    if out["dual"]:
+        sl = slice(k0, n)
+        out.update(fine_rhs=float(np.nanmean(d["inner/rhs"][sl])),
+                   coarse_rhs=float(np.nanmean(d["inner/coarse_rhs"][sl])),
+                   iterations=float(np.nanmean(d["inner/iterations"][sl])))
+    return out
+
+
 def estimate(case_path, degree=None, span: float | None = None, span_cells: int | None = None,
              throughputs=None, per: str = "core", units: int | None = None, unit_memory_gb: float | None = None,
-             calib: dict | None = None, min_time: float = 0.5) -> dict:
+             calib: dict | None = None, min_time: float = 0.5, from_run=None) -> dict:
     """Cost of a case here and of its extruded production run.
 
     Parameters
@@ -259,6 +315,10 @@ def estimate(case_path, degree=None, span: float | None = None, span_cells: int 
         Memory per core/device (GB), for the smallest count that holds the run.
     calib : dict, optional
         A calibration to reuse (:func:`calibrate`); measured when not given.
+    from_run : path, optional
+        Folder of an earlier run of this case (:func:`run_rates`): its developed flow's mean time step
+        (explicit, CFL-controlled runs) and, for dual time stepping, its residual evaluations per step
+        replace the values measured on the initial state.
 
     Returns
     -------
@@ -299,6 +359,17 @@ def estimate(case_path, degree=None, span: float | None = None, span_cells: int 
     if calib is None:
         calib = calibrate(case.path, p, min_time=min_time)
     stages = calib["rhs_per_step"]
+    step_seconds = calib["step_seconds"]
+    rates = None
+    if from_run is not None:
+        rates = run_rates(from_run, ne, p)
+        if tcfg.dt is None and not rates["dual"]:
+            r = rates["dt"] / dt2  # the developed flow's step; the 3D step scales with it
+            dt2, dt3 = rates["dt"], (dt3 * r if dt3 is not None else None)
+        if rates["dual"]:
+            new = rates["fine_rhs"] + rates["coarse_rhs"]
+            step_seconds = calib["step_seconds"] * new / stages
+            stages = new
     n2 = dof_2d(ne, p)
     if n2 != op.ndof:  # the formula and the operator must agree; a mismatch is our bug
         raise AssertionError(f"DoF formula {n2} != operator {op.ndof}")
@@ -308,13 +379,18 @@ def estimate(case_path, degree=None, span: float | None = None, span_cells: int 
         "time_scheme": tcfg.scheme, "cfl": tcfg.cfl if tcfg.dt is None else None, "fixed_dt": tcfg.dt,
         "end": tcfg.end, "dt_2d": dt2, "steps_2d": steps2, "rhs_per_step": stages,
         "rhs_2d": steps2 * stages, "memory_2d": memory_estimate(calib, n2), "calibration": calib,
-        "wall_2d": steps2 * calib["step_seconds"], "threads": calib["step_threads"],
+        "wall_2d": steps2 * step_seconds, "step_seconds": step_seconds, "threads": calib["step_threads"],
+        "from_run": rates,
     }
     assumptions = [
         f"DoF = elements x (p+1)^2 x {NVAR_2D} in 2D; elements x layers x (p+1)^3 x {NVAR_3D} in 3D "
         "(one variable per conserved quantity)",
-        "time step: the solver's explicit stability rule on the initial state, refreshed by the run every 10 "
-        "steps; a developed flow with faster local speeds takes somewhat smaller steps",
+        ("time step: the fixed [time] dt of the case" if tcfg.dt is not None else
+         f"time step: the mean step of the developed flow in {rates['run_dir']} (t = {rates['t_from']:.4g} .. "
+         f"{rates['t_to']:.4g})" if rates is not None and not rates["dual"] else
+         "time step: the solver's explicit stability rule on the initial state, refreshed by the run every 10 "
+         "steps; a developed flow with faster local speeds takes somewhat smaller steps (--from-run DIR uses a "
+         "run's own steps)"),
         f"memory: {_mb(calib['baseline_rss'])} baseline (Python, numpy, numba kernels, h5py) + "
         f"{calib['rss_per_dof']:.0f} B per DoF measured as the peak resident-memory growth of the calibration "
         f"run ({calib['dof']} DoF; numpy arrays alone {calib['traced_per_dof']:.0f} B per DoF by tracemalloc)",
@@ -323,6 +399,18 @@ def estimate(case_path, degree=None, span: float | None = None, span_cells: int 
         f"({calib['step_seconds_one']:.3g} s) on this machine at the time of the calibration; output, monitors and "
         "start-up not included",
     ]
+    if rates is not None and rates["dual"]:
+        assumptions.append(
+            f"RHS per step: mean of the last {rates['rows']} history rows of {rates['run_dir']} (t = "
+            f"{rates['t_from']:.4g} .. {rates['t_to']:.4g}): {rates['iterations']:.1f} inner iterations, "
+            f"{rates['fine_rhs']:.1f} fine-level + {rates['coarse_rhs']:.1f} coarse-level evaluations, the coarse "
+            "ones counted as fine ones (an upper bound); the wall time per step is the calibration's scaled by "
+            "this count")
+    elif tcfg.scheme.startswith("bdf"):
+        assumptions.append(
+            f"RHS per step: measured on the first calibration steps from the initial state "
+            f"({calib['rhs_per_step']:.0f}); an impulsive start converges far slower than a developed flow, so "
+            "this is pessimistic: pass --from-run DIR with a short run of the case for its own count")
     if calib["threads"] > 1 and calib["step_seconds_all"] > calib["step_seconds_one"]:
         assumptions.append(f"{calib['threads']} threads were slower than 1 during the calibration: the machine is "
                            "busy or the problem is too small to share; rerun on an idle machine for parallel figures")
@@ -393,8 +481,8 @@ def format_estimate(est: dict) -> str:
              f"  RHS per step   {est['rhs_per_step']:g} -> {est['rhs_2d']:,.0f} RHS evaluations",
              f"  time/DoF/RHS   {c['ns_per_dof_rhs_all']:.3g} ns with {c['threads']} thread(s), "
              f"{c['ns_per_dof_rhs_one']:.3g} ns with 1 thread (measured)",
-             f"  wall time here {_hours(est['wall_2d'] / 3600)} ({c['step_seconds']:.3g} s per step measured, "
-             f"{c['step_threads']} thread(s))"]
+             f"  wall time here {_hours(est['wall_2d'] / 3600)} ({est.get('step_seconds', c['step_seconds']):.3g} s "
+             f"per step, {c['step_threads']} thread(s))"]
     pr = est.get("production")
     if pr:
         lines += ["", f"Production projection: extruded over span {pr['span']:g} in {pr['layers']} layers",
@@ -428,13 +516,17 @@ def add_arguments(p) -> None:
     p.add_argument("--units", type=int, help="number of cores/devices, for a wall time of the production run")
     p.add_argument("--unit-memory", type=float, dest="unit_memory", metavar="GB",
                    help="memory per core/device, for the smallest count that holds the run")
+    p.add_argument("--from-run", dest="from_run", metavar="DIR",
+                   help="run folder of an earlier (short) run of this case: use its developed flow's time step "
+                        "and, for dual time stepping, its residual evaluations per step")
     p.add_argument("--json", metavar="FILE", help="also write the numbers as JSON")
 
 
 def main(args, printer=print) -> int:
     """``quadfr estimate``."""
     est = estimate(args.case, degree=args.degree, span=args.span, span_cells=args.span_cells,
-                   throughputs=args.throughput, per=args.per, units=args.units, unit_memory_gb=args.unit_memory)
+                   throughputs=args.throughput, per=args.per, units=args.units, unit_memory_gb=args.unit_memory,
+                   from_run=args.from_run)
     printer(format_estimate(est))
     if args.json:
         from tools.jsonio import write_json

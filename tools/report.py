@@ -182,7 +182,7 @@ def summary_lines(res: dict) -> list[str]:
         how = "given by --from" if res.get("user_from") else "chosen: lift cycles settled"
         lines.append(f"window: {n} whole lift cycles, t = {t0:.6g} .. {t1:.6g} (start {how}: {res.get('window_from')})")
     lines.append("")
-    lines.append(f"| coefficient | mean | rms (fluct.) | amplitude (half p-p) | min | max |")
+    lines.append("| coefficient | mean | rms (fluct.) | amplitude (half p-p) | min | max |")
     lines.append("|---|---|---|---|---|---|")
     for k, s in res["coefficients"].items():
         lines.append(f"| {k} | {s['mean']:.5f} | {s['rms']:.5f} | {s['amplitude']:.5f} | {s['min']:.5f} | "

@@ -267,7 +267,7 @@ def cycle_stats(t, x, period: float | None = None, tc=None) -> dict:
     rows = []
     for a, b in zip(tc[:-1], tc[1:]):
         sel = (t >= a) & (t < b)
-        ts, xs = t[sel], x[sel]
+        xs = x[sel]
         if xs.size < 2:
             continue
         rows.append((a, b - a, _mean_between(t, x, a, b), xs.min(), xs.max(), 0.5 * (xs.max() - xs.min())))

@@ -22,5 +22,7 @@ CHECKS: dict = {
     "mms": lambda quick: verify_mms(quick),
     "inviscid-cylinder": lambda quick: verify_inviscid_cylinder(quick=quick),
     "cylinder": lambda quick: verify_cylinder(quick=quick),
+    "cylinder-dual": lambda quick: __import__("tools.verify.cylinder_dual",
+                                              fromlist=["_"]).verify_cylinder_dual(quick=quick),
     "blasius": lambda quick: __import__("tools.verify.blasius", fromlist=["_"]).verify_blasius(quick=quick),
 }

@@ -21,13 +21,14 @@ delivers numbers of the right size, the full form that they are right.
 """
 from __future__ import annotations
 
+import contextlib
 import math
 import tempfile
 import time
 import tomllib
 from pathlib import Path
 
-__all__ = ["verify_cylinder", "REFERENCES", "QUICK", "FULL"]
+__all__ = ["verify_cylinder", "REFERENCES", "QUICK", "FULL", "work_folder"]
 
 ROOT = Path(__file__).resolve().parents[2]
 CASES = ROOT / "cases"
@@ -97,6 +98,18 @@ def case_variant(case_file: Path, folder: Path, overrides: dict, name: str):
     path = folder / f"{name}.toml"
     path.write_text(dump_toml(data), encoding="utf-8")
     return load_case(path)
+
+
+@contextlib.contextmanager
+def work_folder(keep: str | None, prefix: str):
+    """Folder for a check's run folders: ``keep`` (created, kept), or a temporary one removed afterwards."""
+    if keep is not None:
+        folder = Path(keep)
+        folder.mkdir(parents=True, exist_ok=True)
+        yield folder
+        return
+    with tempfile.TemporaryDirectory(prefix=prefix) as tmp:
+        yield Path(tmp)
 
 
 def _rel(value, ref) -> float:
@@ -178,15 +191,8 @@ def verify_cylinder(quick: bool = False, printer=print, keep: str | None = None)
     printer("laminar cylinder wake: Re = 40 (steady) and Re = 100 (shedding)" + (" -- quick form" if quick else ""))
     for k, (v, src) in REFERENCES.items():
         printer(f"  reference {k}: {v:.4f}  ({src})")
-    tmp = None
-    if keep is None:
-        tmp = tempfile.TemporaryDirectory(prefix="quadfr-verify-cylinder-")
-        folder = Path(tmp.name)
-    else:
-        folder = Path(keep)
-        folder.mkdir(parents=True, exist_ok=True)
     quiet = (lambda *a, **k: None)
-    try:
+    with work_folder(keep, "quadfr-verify-cylinder-") as folder:
         c40 = case_variant(CASES / cfg["re40"]["case"], folder, cfg["re40"]["overrides"], "re40")
         c100 = case_variant(CASES / cfg["re100"]["case"], folder, cfg["re100"]["overrides"], "re100")
         printer(f"  Re = 40 : {_describe(c40)}")
@@ -200,9 +206,6 @@ def verify_cylinder(quick: bool = False, printer=print, keep: str | None = None)
                 f"{r100['window'][1]:.2f} ({r100['cycles']} cycles); St from zero crossings "
                 f"{r100['st_crossings']:.4f}; period varies {100 * r100['period_variation']:.2f} %, amplitude "
                 f"{100 * r100['amplitude_variation']:.2f} %")
-    finally:
-        if tmp is not None:
-            tmp.cleanup()
     rows = [("cd40", "Re 40 drag coefficient", r40["cd"]), ("lod40", "Re 40 recirculation length L/D", r40["L_over_D"]),
             ("st100", "Re 100 Strouhal number", r100["st"]), ("cd100", "Re 100 mean drag coefficient", r100["cd"]),
             ("clamp100", "Re 100 lift amplitude", r100["cl_amplitude"])]

@@ -1,0 +1,204 @@
+"""``quadfr verify cylinder-dual``: the Re = 100 cylinder by dual time stepping against the explicit run.
+
+The test a user makes before trusting a physical step on the cluster: does
+the shedding frequency survive it?
+
+1. An explicit run of ``cylinder-re100.toml`` (SSP-RK(5,4), the reference)
+   develops the shedding to ``develop`` and continues to ``end``; it writes a
+   snapshot at ``develop``.
+2. Dual-time runs (BDF2, p-multigrid pseudo-time iteration, the settings of
+   ``cylinder-re100-dual.toml``) start from that snapshot (``[initial] kind =
+   "snapshot"``) and run to ``end`` with each physical step ``dt`` of the list.
+3. Every run is analysed over the same window ``develop + settle .. end``
+   (tools.report.analyse).  Passed when the dual-time run at the nominal step
+   gives the explicit run's Strouhal number within 1 % and Williamson's (1988,
+   Phys. Fluids 31) fit ``St = -3.3265/Re + 0.1816 + 1.600e-4 Re`` = 0.1643
+   within 2 % (quick form: the quick tolerance of ``verify cylinder``, the
+   coarse mesh's own error), and when p-multigrid needs at least 2x fewer
+   fine-level residual evaluations than the plain pseudo-time iteration over
+   the same steps.  The largest step of the list that keeps St within 1 % is
+   reported.
+
+The wall-time table compares the three ways over the window: explicit, dual
+time with p-multigrid and dual time without it.
+"""
+from __future__ import annotations
+
+import math
+import time
+from pathlib import Path
+
+import numpy as np
+
+from .cylinder import CASES, QUICK as CYL_QUICK, ST_WILLIAMSON, case_variant, work_folder
+
+__all__ = ["verify_cylinder_dual", "QUICK", "FULL"]
+
+_QUICK_MESH = CYL_QUICK["re100"]["overrides"]["mesh"]
+
+#: full form: the bundled mesh; dt list; plain (no multigrid) comparison at ``plain_dt`` over the whole window
+FULL = {"mesh": {}, "degree": 2, "develop": 60.0, "end": 90.0, "settle": 4.0,
+        "dts": (0.02, 0.1, 0.2, 0.4), "nominal": 0.02, "plain_dt": 0.1, "plain_steps": None,
+        "tol_explicit": 0.01, "tol_williamson": 0.02, "mg_factor": 2.0}
+#: quick form: the coarse mesh of ``verify cylinder --quick``; plain iteration for the first steps only
+QUICK = {"mesh": dict(_QUICK_MESH), "degree": 2, "develop": 40.0, "end": 60.0, "settle": 2.0,
+         "dts": (0.2,), "nominal": 0.2, "plain_dt": 0.2, "plain_steps": 4,
+         "tol_explicit": 0.01, "tol_williamson": CYL_QUICK["tol"]["st100"], "mg_factor": 2.0}
+
+
+def _window_stats(run_dir, t_from) -> dict:
+    from solver.history import read_history
+    from tools.report import analyse
+
+    res = analyse(run_dir, t_from=t_from)
+    st = res["strouhal"]
+    h = read_history(run_dir)
+    d = h["data"]
+    tt = np.asarray(d["time"])
+    sel = tt >= t_from - 1e-9
+    out = {"st": st["spectral"] if st else math.nan, "st_crossings": st["crossings"] if st else math.nan,
+           "cd": res["coefficients"]["cd"]["mean"], "cl_amplitude": res["coefficients"]["cl"]["amplitude"],
+           "window": res["window"],
+           "wall_window": float(d["wall_time"][sel][-1] - d["wall_time"][sel][0]),
+           "time_window": float(tt[sel][-1] - tt[sel][0])}
+    if "inner/iterations" in d:
+        it = np.asarray(d["inner/iterations"])
+        ok = np.isfinite(it)
+        out.update(iterations=float(np.mean(it[ok])), fine_rhs=float(np.mean(np.asarray(d["inner/rhs"])[ok])),
+                   coarse_rhs=float(np.mean(np.asarray(d["inner/coarse_rhs"])[ok])),
+                   unconverged=int(np.sum(np.asarray(d["inner/converged"])[ok] < 0.5)))
+    return out
+
+
+def _first_steps_rhs(run_dir, n) -> float:
+    """Fine-level residual evaluations of the first ``n`` dual-time steps (history every step)."""
+    from solver.history import read_history
+
+    d = read_history(run_dir)["data"]
+    r = np.asarray(d["inner/rhs"])
+    r = r[np.isfinite(r)]
+    if len(r) < n:
+        raise RuntimeError(f"{run_dir}: history holds {len(r)} dual-time steps, fewer than {n}")
+    return float(r[:n].sum())
+
+
+def _snapshot_at(run_dir, t) -> Path:
+    from solver.output import list_snapshots, read_snapshot
+
+    best = None
+    for p in list_snapshots(run_dir):
+        ts = read_snapshot(p).time
+        if best is None or abs(ts - t) < best[0]:
+            best = (abs(ts - t), p, ts)
+    if best is None or best[0] > 1e-6 * max(1.0, t):
+        raise RuntimeError(f"{run_dir}: no snapshot at t = {t:g} (nearest {best[2] if best else 'none'})")
+    return best[1]
+
+
+def verify_cylinder_dual(quick: bool = False, printer=print, keep: str | None = None) -> dict:
+    """Run the explicit reference and the dual-time runs; returns the table and PASS/FAIL.
+
+    Parameters
+    ----------
+    quick : bool
+        Coarse mesh, one physical step, short window (CI).
+    keep : str, optional
+        Folder for the run folders (default: a temporary folder, removed afterwards).
+    """
+    from solver.run import run_case
+
+    cfg = QUICK if quick else FULL
+    printer("Re = 100 cylinder: dual time stepping (BDF2 + p-multigrid) against the explicit run"
+            + (" -- quick form" if quick else ""))
+    printer(f"  reference: the explicit SSP-RK(5,4) run on the same mesh and degree; Williamson 1988 St = "
+            f"{ST_WILLIAMSON:.4f}")
+    quiet = (lambda *a, **k: None)
+    t_from = cfg["develop"] + cfg["settle"]
+    rows = []
+    with work_folder(keep, "quadfr-verify-cylinder-dual-") as folder:
+        exp_case = case_variant(CASES / "cylinder-re100.toml", folder,
+                                {"mesh": cfg["mesh"], "scheme": {"degree": cfg["degree"]},
+                                 "time": {"end": cfg["end"]},
+                                 "output": {"snapshot_every": cfg["develop"], "history_every": 5}}, "explicit")
+        t0 = time.perf_counter()
+        r = run_case(exp_case, printer=quiet)
+        wall = time.perf_counter() - t0
+        ex = _window_stats(r["run_dir"], t_from)
+        ex.update(method="explicit ssp-rk54", dt=math.nan, steps=r["step"], wall_total=wall, dof=r["dof"])
+        rows.append(ex)
+        printer(f"  mesh: {r['dof']} DoF, degree {cfg['degree']}; explicit run 0 .. {cfg['end']:g}: {r['step']} "
+                f"steps, wall {wall:.1f} s (JIT included); window t = {t_from:g} .. {cfg['end']:g}")
+        snap = _snapshot_at(r["run_dir"], cfg["develop"])
+
+        def dual(dt, multigrid, name, stop_after=None):
+            over = {"mesh": cfg["mesh"], "scheme": {"degree": cfg["degree"]},
+                    "time": {"dt": dt, "end": cfg["end"], "progress_every": 10 ** 9},
+                    "pseudo": {"multigrid": multigrid, "max_iterations": 3000 if not multigrid else 1000},
+                    "initial": {"kind": "snapshot", "file": str(snap)},
+                    "output": {"snapshot_every": 0.0, "history_every": 1}}
+            case = case_variant(CASES / "cylinder-re100-dual.toml", folder, over, name)
+            t1 = time.perf_counter()
+            rr = run_case(case, printer=quiet, stop_after=stop_after)
+            return rr, time.perf_counter() - t1
+
+        for dt in cfg["dts"]:
+            rr, wall = dual(dt, True, f"dual-{dt:g}")
+            row = _window_stats(rr["run_dir"], t_from)
+            row.update(method="bdf2 p-multigrid", dt=dt, steps=rr["step"], wall_total=wall,
+                       totals=rr["inner_totals"])
+            rows.append(row)
+            printer(f"  bdf2 dt {dt:g} with p-multigrid: St {row['st']:.5f}, {row['iterations']:.1f} cycles/step, "
+                    f"wall {wall:.1f} s")
+        # the plain pseudo-time iteration (no multigrid): whole window (full) or the first steps (quick)
+        pdt, nst = cfg["plain_dt"], cfg["plain_steps"]
+        rr, wall = dual(pdt, False, f"plain-{pdt:g}", stop_after=nst)
+        mg_row = next(x for x in rows[1:] if x["dt"] == pdt)
+        mg_dir = folder / f"dual-{pdt:g}"
+        if nst is None:
+            plain = _window_stats(rr["run_dir"], t_from)
+            plain.update(method="bdf2 no multigrid", dt=pdt, steps=rr["step"], wall_total=wall,
+                         totals=rr["inner_totals"])
+            rows.append(plain)
+            factor = plain["fine_rhs"] / mg_row["fine_rhs"]
+            basis = f"mean fine-level RHS per step over the window, dt {pdt:g}"
+        else:
+            factor = _first_steps_rhs(rr["run_dir"], nst) / _first_steps_rhs(mg_dir, nst)
+            basis = f"fine-level RHS over the first {nst} steps, dt {pdt:g}"
+
+    st_exp = ex["st"]
+    for x in rows:
+        x["err_explicit"] = abs(x["st"] / st_exp - 1.0) if math.isfinite(x["st"]) else math.inf
+        x["err_williamson"] = abs(x["st"] / ST_WILLIAMSON - 1.0) if math.isfinite(x["st"]) else math.inf
+        x["wall_per_time"] = x["wall_window"] / max(x["time_window"], 1e-300)
+    printer(f"  {'method':<20} {'dt':>6} {'cycles':>7} {'fine RHS':>9} {'coarse':>7} {'wall/t':>8} {'St':>8} "
+            f"{'vs expl':>8} {'vs Wil.':>8} {'Cd':>7} {'Cl amp':>7}")
+    for x in rows:
+        dts = "-" if not math.isfinite(x["dt"]) else f"{x['dt']:g}"
+        cyc = f"{x['iterations']:.1f}" if "iterations" in x else "-"
+        fr = f"{x['fine_rhs']:.0f}" if "fine_rhs" in x else "-"
+        cr = f"{x['coarse_rhs']:.0f}" if "coarse_rhs" in x else "-"
+        printer(f"  {x['method']:<20} {dts:>6} {cyc:>7} {fr:>9} {cr:>7} {x['wall_per_time']:7.2f}s {x['st']:8.5f} "
+                f"{100 * x['err_explicit']:7.2f}% {100 * x['err_williamson']:7.2f}% {x['cd']:7.4f} "
+                f"{x['cl_amplitude']:7.4f}")
+    printer("  (cycles and RHS per physical step; wall/t: wall seconds per simulated time unit over the window)")
+    nominal = next(x for x in rows[1:] if x["dt"] == cfg["nominal"])
+    ok_exp = nominal["err_explicit"] <= cfg["tol_explicit"]
+    ok_wil = nominal["err_williamson"] <= cfg["tol_williamson"]
+    ok_conv = all(x.get("unconverged", 0) == 0 for x in rows[1:])
+    ok_mg = factor >= cfg["mg_factor"]
+    within = [x["dt"] for x in rows[1:] if x["method"] == "bdf2 p-multigrid" and x["err_explicit"] <= cfg["tol_explicit"]]
+    largest = max(within) if within else math.nan
+    printer(f"  dt {cfg['nominal']:g}: St vs explicit {100 * nominal['err_explicit']:.2f} % (tolerance "
+            f"{100 * cfg['tol_explicit']:.0f} %) {'PASS' if ok_exp else 'FAIL'}; vs Williamson "
+            f"{100 * nominal['err_williamson']:.2f} % (tolerance {100 * cfg['tol_williamson']:.0f} %) "
+            f"{'PASS' if ok_wil else 'FAIL'}")
+    printer(f"  p-multigrid: {factor:.2f}x fewer fine-level residual evaluations ({basis}; required "
+            f">= {cfg['mg_factor']:g}x) {'PASS' if ok_mg else 'FAIL'}")
+    printer(f"  every inner iteration converged: {'PASS' if ok_conv else 'FAIL'}")
+    printer(f"  largest dt of {list(cfg['dts'])} keeping St within {100 * cfg['tol_explicit']:.0f} % of the "
+            f"explicit run: {largest:g}")
+    passed = ok_exp and ok_wil and ok_mg and ok_conv
+    printer(f"cylinder-dual: {'PASS' if passed else 'FAIL'}")
+    return {"check": "cylinder-dual", "quick": bool(quick), "passed": bool(passed), "rows": rows,
+            "multigrid_factor": factor, "multigrid_basis": basis, "largest_dt_within": largest,
+            "st_explicit": st_exp, "st_williamson": ST_WILLIAMSON, "window": [t_from, cfg["end"]]}
