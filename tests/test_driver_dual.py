@@ -77,3 +77,13 @@ def test_history_records_the_inner_iteration_of_every_step(tmp_path):
     tot = r["inner_totals"]
     assert tot["steps"] == 6 and int(np.sum(it[1:])) == tot["iterations"]
     assert int(np.sum(d["inner/rhs"][1:])) == tot["rhs"] and int(np.sum(d["inner/coarse_rhs"][1:])) == tot["coarse_rhs"]
+
+
+@pytest.mark.parametrize("time", ['scheme = "ssp-rk33"\ndt = 0.1\nend = 1.0', DUAL.replace("steps = 6", "end = 1.0")
+                                  .replace("dt = 0.2", "dt = 0.1")])
+def test_steps_that_add_up_to_the_end_land_on_it(tmp_path, time):
+    # ten steps of 0.1 sum to 0.9999999999999999 in floating point: the tenth step is stretched to end at
+    # t = 1 instead of a further step of 1e-16 (a whole inner solve in dual time)
+    assert sum([0.1] * 10) < 1.0
+    r = run_case(_case(tmp_path, "land", time=time), printer=_quiet)
+    assert r["step"] == 10 and r["time"] == 1.0

@@ -173,3 +173,34 @@ def test_analysis_on_an_analytic_sequence():
     assert q["cheapest"] == min(ok, key=lambda s: int(s[-1]))   # wall grows with the mesh
     csv = levels_csv(st, an)
     assert csv.splitlines()[0].endswith(",q") and len(csv.splitlines()) == 5
+
+
+def test_verdict_judges_the_engineering_outputs():
+    # 'report' outputs: St, mean Cd, lift amplitude ... are judged; window bounds and a mean lift that is
+    # noise about zero are tabulated only, unless a tolerance names them or the mean lift is not ~0
+    st = _synthetic()
+    for i, lv in enumerate(st["levels"]):
+        q = lv.outputs.pop("q")
+        lv.outputs.update(St=q, window_start=30.0 + 3.0 * (-1) ** i, mean_cl=1e-4 * (-1) ** i)
+    an = analyse(st, (0.001, {}))
+    assert an["judged"] == ["St"]
+    assert an["cheapest_all"] == an["outputs"]["St"]["cheapest"] is not None
+    assert an["outputs"]["window_start"]["judged"] is False and an["outputs"]["mean_cl"]["judged"] is False
+    an2 = analyse(st, (0.001, {"window_start": 0.5}))
+    assert an2["judged"] == ["St", "window_start"]
+    for lv in st["levels"]:
+        lv.outputs["mean_cl"] += 0.5  # a real mean lift (an airfoil at incidence)
+    assert "mean_cl" in analyse(st, (0.001, {}))["judged"]
+
+
+def test_reanalyse_reads_the_study_back(serial_study, tmp_path):
+    from tools.study import load_study, write_reports
+
+    an = analyse(serial_study, 0.01)
+    write_reports(serial_study, an, plot=False)
+    back = load_study(serial_study["study_dir"])
+    assert [lv.label for lv in back["levels"]] == [lv.label for lv in serial_study["levels"]]
+    assert [lv.outputs for lv in back["levels"]] == [lv.outputs for lv in serial_study["levels"]]
+    assert analyse(back, 0.01)["cheapest_all"] == an["cheapest_all"]
+    with pytest.raises(StudyError, match=r"study.json: not found"):
+        load_study(tmp_path)

@@ -409,8 +409,8 @@ def estimate(case_path, degree=None, span: float | None = None, span_cells: int 
     elif tcfg.scheme.startswith("bdf"):
         assumptions.append(
             f"RHS per step: measured on the first calibration steps from the initial state "
-            f"({calib['rhs_per_step']:.0f}); an impulsive start converges far slower than a developed flow, so "
-            "this is pessimistic: pass --from-run DIR with a short run of the case for its own count")
+            f"({calib['rhs_per_step']:.0f}), which need not represent the developed flow: pass --from-run DIR "
+            "with a short run of the case for its own count")
     if calib["threads"] > 1 and calib["step_seconds_all"] > calib["step_seconds_one"]:
         assumptions.append(f"{calib['threads']} threads were slower than 1 during the calibration: the machine is "
                            "busy or the problem is too small to share; rerun on an idle machine for parallel figures")

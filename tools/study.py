@@ -41,7 +41,7 @@ from dataclasses import asdict, dataclass, field
 from pathlib import Path
 
 __all__ = ["Level", "REFINE_RULES", "parse_meshes", "parse_degrees", "parse_tolerance", "refined_mesh_table",
-           "toml_dumps", "plan_study", "run_study", "analyse", "markdown_report", "levels_csv", "plot_study",
+           "toml_dumps", "plan_study", "run_study", "load_study", "default_study_dir", "analyse", "markdown_report", "levels_csv", "plot_study",
            "available_cores", "main"]
 
 #: How a refinement factor f acts on each generator's parameters (parameters not listed stay):
@@ -529,6 +529,12 @@ def _fmt_s(s: float) -> str:
     return f"{s:.1f} s" if s < 120 else (f"{s / 60:.1f} min" if s < 7200 else f"{s / 3600:.1f} h")
 
 
+def default_study_dir(case_path) -> Path:
+    """``runs/<case stem>-study`` beside the case file."""
+    p = Path(case_path).resolve()
+    return p.parent / "runs" / f"{p.stem}-study"
+
+
 def run_study(case_path, degrees, meshes=None, jobs: int = 1, threads: int | None = None, outputs: str = "auto",
               t_from=None, study_dir=None, max_dof=None, printer=print, quiet_levels: bool = False) -> dict:
     """Plan and run a study; returns ``{"case", "outputs", "levels": [Level, ...], "jobs", "threads", ...}``.
@@ -572,7 +578,7 @@ def run_study(case_path, degrees, meshes=None, jobs: int = 1, threads: int | Non
                          "this machine")
     outputs = choose_outputs(case, outputs)
     meshes = meshes or [MeshLevel("x1", factor=1.0)]
-    study_dir = Path(study_dir) if study_dir else case.path.parent / "runs" / f"{case.path.stem}-study"
+    study_dir = Path(study_dir) if study_dir else default_study_dir(case.path)
     study_dir.mkdir(parents=True, exist_ok=True)
 
     levels = plan_study(case, degrees, meshes, study_dir, max_dof)
@@ -713,7 +719,8 @@ def analyse(study: dict, tolerance=0.01, cost: str = "wall") -> dict:
     dict
         ``outputs``: per output name a dict with ``sequences`` (name, levels, values,
         ``richardson`` as a dict or None), ``reference``, ``reference_source``,
-        ``tolerance``, ``within`` (labels), ``cheapest``; ``cheapest_all``: the
+        ``tolerance``, ``within`` (labels), ``cheapest``, ``judged`` (bool); ``judged``: the names the
+        verdict covers (:class:`tools.study_outputs.OutputProvider`); ``cheapest_all``: the
         cheapest level within tolerance on every output; ``accuracy``: the
         equal-error tables of outputs with an exact value.
     """
@@ -724,7 +731,8 @@ def analyse(study: dict, tolerance=0.01, cost: str = "wall") -> dict:
     if cost not in ("wall", "cpu", "work"):
         raise StudyError(f"--cost must be wall, cpu or work, got '{cost}'")
     default_tol, per_tol = tolerance if isinstance(tolerance, tuple) else (float(tolerance), {})
-    exact = STUDY_OUTPUTS[study["outputs"]].obj.exact
+    provider = STUDY_OUTPUTS[study["outputs"]].obj
+    exact = provider.exact
     levels = study["levels"]
     ok = [lv for lv in levels if lv.status == "ok"]
     names = []
@@ -768,10 +776,14 @@ def analyse(study: dict, tolerance=0.01, cost: str = "wall") -> dict:
         band = tol * abs(ref) if ref != 0 else tol
         within = [lv for lv in ok if name in lv.outputs and abs(lv.outputs[name] - ref) <= band]
         cheapest = min(within, key=lambda x: (cost_of(x), x.dof)).label if within else None
+        judged = (provider.judged is None or name in provider.judged or name in per_tol
+                  or abs(ref) >= provider.judged_if_nonzero.get(name, math.inf))
         res["outputs"][name] = {"sequences": seqs, "reference": ref, "reference_source": src, "tolerance": tol,
-                                "absolute": ref == 0, "source_exact": name in exact, "within": [lv.label for lv in within], "cheapest": cheapest}
-    if names:
-        allok = [lv for lv in ok if all(lv.label in res["outputs"][n]["within"] for n in names)]
+                                "absolute": ref == 0, "source_exact": name in exact, "within": [lv.label for lv in within],
+                                "cheapest": cheapest, "judged": bool(judged)}
+    res["judged"] = [n for n in names if res["outputs"][n]["judged"]]
+    if res["judged"]:
+        allok = [lv for lv in ok if all(lv.label in res["outputs"][n]["within"] for n in res["judged"])]
         res["cheapest_all"] = min(allok, key=lambda x: (cost_of(x), x.dof)).label if allok else None
     else:
         res["cheapest_all"] = None
@@ -818,7 +830,10 @@ def markdown_report(study: dict, analysis: dict) -> str:
     if changed:
         out += ["", "Mesh refinement: " + "; ".join(
             f"{m}: " + ", ".join(f"{k} {_g(a)} -> {_g(b)}" for k, (a, b) in c.items()) for m, c in changed.items())]
+    judged = analysis.get("judged", list(analysis["outputs"]))
     for name, a in analysis["outputs"].items():
+        if name not in judged:
+            continue
         out += ["", f"## `{name}`", ""]
         prim = next((s for s in a["sequences"] if s["kind"] == "mesh"), None)
         prev_of = {}
@@ -861,8 +876,13 @@ def markdown_report(study: dict, analysis: dict) -> str:
         tol = (f"{_g(a['tolerance'], 3)} (absolute)" if a["absolute"] else f"{100 * a['tolerance']:.3g} %")
         out += ["", f"Reference {_g(a['reference'], 7)} ({a['reference_source']}); tolerance {tol}; cheapest level "
                     f"within it: **{a['cheapest'] or 'none'}**."]
+    others = [n for n in analysis["outputs"] if n not in judged]
     out += ["", "## Verdict", "",
-            f"Cheapest level with every output within tolerance: **{analysis['cheapest_all'] or 'none'}**."]
+            f"Cheapest level with every judged output ({', '.join(f'`{n}`' for n in judged) or 'none'}) within "
+            f"tolerance: **{analysis['cheapest_all'] or 'none'}**."]
+    if others:
+        out.append(f"Further outputs, tabulated in `study.csv` and `study.json` but not judged (add one with "
+                   f"`--tolerance NAME=TOL`): {', '.join(others)}.")
     if analysis.get("unknown_tolerances"):
         out.append(f"(Tolerances given for unknown outputs: {', '.join(analysis['unknown_tolerances'])}.)")
     for name, acc in analysis.get("accuracy", {}).items():
@@ -932,7 +952,7 @@ def plot_study(study: dict, analysis: dict, path) -> Path | None:
     from tools.study_outputs import STUDY_OUTPUTS
 
     exact = STUDY_OUTPUTS[study["outputs"]].obj.exact
-    names = list(analysis["outputs"])
+    names = list(analysis.get("judged", analysis["outputs"]))
     if not names:
         return None
     panels = []
@@ -1015,6 +1035,26 @@ def write_reports(study: dict, analysis: dict, plot: bool = True) -> dict:
     return paths
 
 
+def load_study(study_dir) -> dict:
+    """A finished study read back from its ``study.json`` (to analyse it again with other tolerances).
+
+    Raises
+    ------
+    StudyError
+        No readable ``study.json`` in the folder; the message names it.
+    """
+    path = Path(study_dir) / "study.json"
+    try:
+        data = json.loads(path.read_text(encoding="utf-8"))
+        study = dict(data["study"])
+        study["levels"] = [Level(**lv) for lv in study["levels"]]
+    except FileNotFoundError:
+        raise StudyError(f"{path}: not found (is {study_dir} a study folder?)") from None
+    except (ValueError, KeyError, TypeError) as exc:
+        raise StudyError(f"{path}: not a study written by quadfr study ({exc})") from None
+    return study
+
+
 def _json_default(o):
     import numpy as np
 
@@ -1048,6 +1088,9 @@ def add_arguments(p) -> None:
     p.add_argument("--out", help="study folder (default runs/<case>-study beside the case file)")
     p.add_argument("--no-plot", action="store_true", help="do not draw convergence.png")
     p.add_argument("--quiet", action="store_true", help="do not show the levels' own progress lines")
+    p.add_argument("--reanalyse", action="store_true",
+                   help="do not run anything: analyse the finished study in --out (or the default study folder) "
+                        "again, e.g. with another --tolerance or --cost, and rewrite its reports")
 
 
 def main(args, printer=print) -> int:
@@ -1060,9 +1103,13 @@ def main(args, printer=print) -> int:
         degrees = [load_case(args.case).scheme.degree]
     meshes = parse_meshes(args.meshes)
     tol = parse_tolerance(args.tolerance)
-    study = run_study(args.case, degrees, meshes, jobs=args.jobs, threads=args.threads, outputs=args.outputs,
-                      t_from=args.t_from, study_dir=args.out, max_dof=args.max_dof, printer=printer,
-                      quiet_levels=args.quiet)
+    if getattr(args, "reanalyse", False):
+        folder = Path(args.out) if args.out else default_study_dir(args.case)
+        study = load_study(folder)
+    else:
+        study = run_study(args.case, degrees, meshes, jobs=args.jobs, threads=args.threads, outputs=args.outputs,
+                          t_from=args.t_from, study_dir=args.out, max_dof=args.max_dof, printer=printer,
+                          quiet_levels=args.quiet)
     analysis = analyse(study, tol, cost=args.cost)
     paths = write_reports(study, analysis, plot=not args.no_plot)
     printer("")

@@ -40,10 +40,20 @@ class OutputProvider:
         Output name -> exact value, for outputs that are errors against an
         exact solution (the study then compares against it, not against an
         extrapolation).
+    judged : tuple of str or None
+        Outputs the verdict ("cheapest level with every output within
+        tolerance") and the Markdown sections cover; the others are kept in
+        the CSV and JSON files.  None: all.  A ``--tolerance`` given for an
+        output adds it.
+    judged_if_nonzero : dict
+        Output name -> magnitude: judged too when ``|reference|`` reaches it
+        (a mean lift or moment that is not just noise about zero).
     """
 
     fn: Callable
     exact: dict = field(default_factory=dict)
+    judged: tuple | None = None
+    judged_if_nonzero: dict = field(default_factory=dict)
 
 
 def report_summary(run_dir, t_from=None) -> dict:
@@ -136,8 +146,12 @@ def vortex_error(run_dir, t_from=None) -> dict:
 
 
 STUDY_OUTPUTS = Registry("study output")
+#: the engineering results of a force history; window bounds, cycle counts and periodicity measures, the
+#: x/y duplicates of cd/cl and the pressure/viscous parts are diagnostics, kept in the files only
+REPORT_JUDGED = ("St", "mean_cd", "cl_amplitude", "cl_rms", "cd_amplitude")
 STUDY_OUTPUTS.register("report", doc="force and shedding statistics of tools.report.summarize (St, mean Cd, ...)",
-                       obj=OutputProvider(report_summary))
+                       obj=OutputProvider(report_summary, judged=REPORT_JUDGED,
+                                          judged_if_nonzero={"mean_cl": 0.01, "mean_cm": 0.01}))
 STUDY_OUTPUTS.register("vortex-error", doc="density error against the exact isentropic vortex (exact value 0)",
                        obj=OutputProvider(vortex_error, exact={"rho_L2_error": 0.0, "rho_max_error": 0.0}))
 
