@@ -22,13 +22,13 @@ density 1, free-stream speed 1, reference length 1 mesh unit, so
 """
 from __future__ import annotations
 
+import dataclasses
 import importlib
 import inspect
 import math
 import tomllib
 import types
 import typing
-import dataclasses
 from dataclasses import dataclass, field, make_dataclass
 from pathlib import Path
 from typing import Any

@@ -109,8 +109,7 @@ class Monitor:
             row += list(self.sampler.primitive(U, self.gamma).reshape(-1))
         if self.inner:
             st = inner or {}
-            row += [float(st["converged"]) if k == "converged" and k in st else float(st.get(k, math.nan))
-                    for k in INNER_NAMES]
+            row += [float(st.get(k, math.nan)) for k in INNER_NAMES]  # converged: bool -> 1.0 / 0.0
         return np.asarray(row, dtype=float)
 
     def residual_rms(self) -> float:
