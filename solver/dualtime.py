@@ -19,6 +19,7 @@ import numpy as np
 
 from .pseudotime import guarded_iteration
 from .registry import Registry
+from .stepper import step_to
 from .timeschemes import TIME_SCHEMES
 
 __all__ = [
@@ -356,9 +357,7 @@ class DualTimeStepper:
         steps = 0
         dt = self.fixed_dt
         while t < t_end * (1 - 1e-14) - 1e-300:
-            h = dt if t + dt <= t_end * (1 + 1e-12) else t_end - t
-            if abs(h - dt) <= 1e-12 * dt:
-                h = dt
+            h = step_to(t, dt, t_end)
             self.step(U, t, h)
             t = t + h
             steps += 1

@@ -38,8 +38,6 @@ __all__ = ["Problem", "build_problem", "run_case", "DT_EVERY", "WallKick"]
 DT_EVERY = 10
 #: wall-clock seconds between history flushes to disk
 FLUSH_SECONDS = 5.0
-#: a step that ends within this fraction of itself before [time] end is stretched to end there
-END_SNAP = 1e-6
 
 
 @dataclass
@@ -298,6 +296,7 @@ def run_case(case, resume: bool = False, printer=print, stop_after: int | None =
     from solver.guard import SolutionBlowUp, StateGuard, write_failure
     from solver.history import HistoryFile
     from solver.output import RunLog, latest_snapshot, read_snapshot, snapshot_name, write_snapshot
+    from solver.stepper import step_to
 
     wall_start = _time.perf_counter()
     prob = build_problem(case)
@@ -450,16 +449,10 @@ def run_case(case, resume: bool = False, printer=print, stop_after: int | None =
                     kick.apply(t)
                 if step % DT_EVERY == 0:
                     dt = st.stable_dt(U)
-                h = dt
-                if t_end is not None:
-                    h = min(h, t_end - t)
+                h = step_to(t, dt, t_end)
                 next_out = k_out * every if every > 0 else math.inf
                 if next_out - t < h and not dual_mode:
                     h = next_out - t
-                if t_end is not None and 0.0 < t_end - (t + h) <= END_SNAP * h:
-                    # the steps add up to t_end but for round-off: land on it now rather than take a last
-                    # step of 1e-12 (a whole inner solve in dual time, and a step ratio that drops the BDF order)
-                    h = t_end - t
                 np.copyto(U_prev, U)
                 t_prev = t
                 st.step(U, t, h)

@@ -12,7 +12,24 @@ import numpy as np
 from .stability import real_axis_reach, stable_cfl
 from .timeschemes import TIME_SCHEMES
 
-__all__ = ["ExplicitStepper"]
+__all__ = ["ExplicitStepper", "step_to", "END_SNAP"]
+
+#: a step that would stop short of the end time by at most this fraction of itself is stretched to end there
+END_SNAP = 1e-6
+
+
+def step_to(t: float, dt: float, t_end: float | None) -> float:
+    """The next step from ``t``: ``dt``, or what is left to ``t_end`` when that is less.
+
+    When what is left exceeds ``dt`` by at most ``END_SNAP dt`` (steps that add up to ``t_end`` but for
+    round-off, e.g. ten steps of 0.1 to t = 1) the step is stretched to end at ``t_end``, rather than
+    followed by a step of 1e-16 relative size: for dual time stepping that would be a whole inner
+    solve that cannot meet an absolute tolerance, and a step ratio that drops the BDF order.
+    """
+    if t_end is None:
+        return dt
+    rest = t_end - t
+    return rest if rest <= dt * (1.0 + END_SNAP) else dt
 
 
 class ExplicitStepper:
@@ -90,7 +107,7 @@ class ExplicitStepper:
         while t < t_end * (1 - 1e-14) - 1e-300:
             if steps and steps % dt_every == 0:
                 dt = self.stable_dt(U)
-            h = min(dt, t_end - t)
+            h = step_to(t, dt, t_end)
             self.step(U, t, h)
             t += h
             steps += 1

@@ -87,3 +87,14 @@ def test_steps_that_add_up_to_the_end_land_on_it(tmp_path, time):
     assert sum([0.1] * 10) < 1.0
     r = run_case(_case(tmp_path, "land", time=time), printer=_quiet)
     assert r["step"] == 10 and r["time"] == 1.0
+
+
+def test_step_to_cuts_and_stretches_only_at_the_end():
+    from solver.stepper import END_SNAP, step_to
+
+    assert step_to(0.3, 0.1, None) == 0.1
+    assert step_to(0.3, 0.1, 1.0) == 0.1                       # far from the end
+    assert step_to(0.95, 0.1, 1.0) == pytest.approx(0.05)      # cut to land on the end
+    t = sum([0.1] * 9)                                         # 0.8999999999999999
+    assert step_to(t, 0.1, 1.0) == 1.0 - t > 0.1               # stretched by round-off only
+    assert step_to(0.0, 0.1, 0.1 * (1 + 2 * END_SNAP)) == 0.1  # a real remainder is not absorbed

@@ -2,8 +2,9 @@
 
 Checks against exact properties rather than stored numbers: a one-step scheme with a fixed step continued
 from a snapshot reproduces the uninterrupted run bit for bit; the transfer to a higher degree keeps the
-polynomial (its modal restriction returns the original values to round-off, the orthonormal Legendre
-truncation property, e.g. Karniadakis & Sherwin 2005); bad input names the file or key.
+polynomial (its modal restriction returns the original values to round-off, the truncation
+property of an orthonormal Legendre expansion, e.g. Karniadakis & Sherwin 2005, from memory); bad input
+names the file or key.
 """
 from __future__ import annotations
 
